@@ -50,7 +50,7 @@ class SourceOffset:
 
     @property
     def significance(self) -> float:
-        """|offset| / error."""
+        """Absolute offset divided by its error."""
         return abs(self.offset_s) / self.error_s
 
 
@@ -216,17 +216,24 @@ def _explain(table, off: SourceOffset):
     std = parse_standard(str(givens[0]))
     original = table.time[mine] if std.name == "BJD_TDB" else \
         from_bjd_tdb(table.time[mine], std, table.target)
-    best = None
+    candidates = []
     for alt in _alternatives(std, table.target is not None):
         if alt.needs_target and table.target is None:
             continue
         relabelled = to_bjd_tdb(original, alt, table.target)
         shift = float(np.mean(relabelled - table.time[mine]) * _DAY)
         remaining = abs(off.offset_s + shift) / off.error_s
-        if best is None or remaining < best[0]:
-            best = (remaining, alt, shift, relabelled)
-    if best is None or best[0] >= 2.0:
+        changes = int(alt.frame != std.frame) + int((alt.scale == "utc") != (std.scale == "utc"))
+        candidates.append((remaining, changes, alt, shift, relabelled))
+    if not candidates:
         return None
+    floor = min(c[0] for c in candidates)
+    if floor >= 2.0:
+        return None
+    # Among relabellings the data cannot tell apart (within 1 sigma of the
+    # best), the simplest mistake -- one change of frame or scale -- is named.
+    best = min((c for c in candidates if c[0] < floor + 1.0), key=lambda c: (c[1], c[0]))
+    best = (best[0], best[2], best[3], best[4])
     return (StandardSuspicion(off.source, off.offset_s, off.error_s, off.significance,
                               std.name, best[1].name, best[2]), best[3])
 

@@ -149,7 +149,8 @@ def parse_standard(text: "str | TimeStandard") -> TimeStandard:
     if match["offset"] is not None:
         if name.startswith("MJD"):
             raise TimeStandardError(f"time standard {text!r}: MJD already carries "
-                                    "an offset; use JD with an offset instead")
+                                    "an offset; use JD with an offset instead "
+                                    f"(known standards: {known_standards()})")
         extra = float(match["offset"])
         offset = extra if match["sign"] == "-" else -extra
         name = f"{name}{match['sign']}{extra:.10g}"

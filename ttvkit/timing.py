@@ -3,19 +3,19 @@
 A :class:`TimingTable` is what every later step of ttvkit reads.  Rows are
 one mid-time each:
 
-=================  =========================================================
-column             meaning
-=================  =========================================================
-``epoch``          integer cycle number from the reference ephemeris
-``time``           mid-time, BJD_TDB, days
-``uncertainty``    1σ uncertainty of ``time``, days
-``kind``           ``transit``, ``occultation`` (planets) or ``primary``,
-                   ``secondary`` (eclipsing binaries)
-``source``         where the time comes from (paper, observer, file)
-``standard``       the standard of ``time`` as written (always ``BJD_TDB``
-                   in tables ttvkit writes, so re-reading is exact)
-``given_standard`` the standard the time was first given in (provenance)
-=================  =========================================================
+==================  =========================================================
+column              meaning
+==================  =========================================================
+``epoch``           integer cycle number from the reference ephemeris
+``time``            mid-time, BJD_TDB, days
+``uncertainty``     1σ uncertainty of ``time``, days
+``kind``            ``transit``, ``occultation`` (planets) or ``primary``,
+                    ``secondary`` (eclipsing binaries)
+``source``          where the time comes from (paper, observer, file)
+``standard``        the standard of ``time`` as written (always ``BJD_TDB``
+                    in tables ttvkit writes, so re-reading is exact)
+``given_standard``  the standard the time was first given in (provenance)
+==================  =========================================================
 
 Plain CSV with the columns ``time``, ``uncertainty`` and optionally
 ``epoch``, ``kind``, ``source``, ``standard`` reads with no options but the

@@ -1,0 +1,97 @@
+"""The command line: exit codes, one-line errors, JSON output, no tracebacks."""
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from ttvkit.cli import main
+
+
+def run(argv, capsys):
+    code = main(argv)
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_version_and_help(capsys):
+    with pytest.raises(SystemExit) as info:
+        main(["--version"])
+    assert info.value.code == 0
+    assert "ttvkit" in capsys.readouterr().out
+    for cmd in ("convert", "demo"):
+        with pytest.raises(SystemExit):
+            main([cmd, "--help"])
+        assert "examples:" in capsys.readouterr().out
+
+
+def test_convert_demo_table(tmp_path, demo_inputs, capsys):
+    out = tmp_path / "t.ecsv"
+    code, stdout, err = run(["convert", str(demo_inputs["timings"]), "--ra", "287.41", "--dec", "31.18",
+                             "--out", str(out), "--json"], capsys)
+    assert code == 0
+    summary = json.loads(stdout)
+    assert summary["n_points"] == 99
+    assert [w["source"] for w in summary["warnings"]] == ["Meridian 1.2-m photometry"]
+    assert "Meridian" in err
+    assert out.exists()
+
+
+BAD_TABLES = {
+    "missing.csv": "epoch,uncertainty\n0,0.001\n",
+    "nan.csv": "epoch,time,uncertainty\n0,nan,0.001\n",
+    "negative.csv": "epoch,time,uncertainty\n0,2456000.0,-0.001\n",
+    "dup.csv": "epoch,time,uncertainty\n0,2456000.0,0.001\n0,2456000.0,0.001\n",
+    "kind.csv": "epoch,time,uncertainty,kind\n0,2456000.0,0.001,flare\n",
+    "std.csv": "epoch,time,uncertainty,standard\n0,2456000.0,0.001,GPS\n",
+    "unit.csv": "epoch,time,uncertainty [zz]\n0,2456000.0,0.001\n",
+    "empty.csv": "",
+    "mixed.csv": "epoch,time,uncertainty,standard\n0,2456000.0,0.001,BJD\n",
+}
+
+
+@pytest.mark.parametrize("name", sorted(BAD_TABLES))
+def test_bad_input_exit_2_one_line(tmp_path, capsys, name):
+    p = tmp_path / name
+    p.write_text(BAD_TABLES[name])
+    out = tmp_path / "o.ecsv"
+    code, stdout, err = run(["convert", str(p), "--standard", "BJD_TDB", "--out", str(out)], capsys)
+    assert code == 2
+    assert len(err.strip().splitlines()) == 1
+    assert name in err and "Traceback" not in err
+    assert not out.exists()
+
+
+def test_binary_input(tmp_path, capsys):
+    p = tmp_path / "b.csv"
+    p.write_bytes(b"\x00\x01\x02" * 100)
+    code, _, err = run(["convert", str(p), "--standard", "BJD_TDB", "--out", str(tmp_path / "o.ecsv")], capsys)
+    assert code == 2 and "binary" in err
+
+
+def test_existing_output_needs_force(tmp_path, demo_inputs, capsys):
+    out = tmp_path / "t.ecsv"
+    out.write_text("keep me")
+    args = ["convert", str(demo_inputs["timings"]), "--ra", "287.41", "--dec", "31.18", "--out", str(out)]
+    code, _, err = run(args, capsys)
+    assert code == 2 and "--force" in err
+    assert out.read_text() == "keep me"
+    assert run(args + ["--force"], capsys)[0] == 0
+
+
+def test_demo_refuses_non_empty_folder(tmp_path, capsys):
+    (tmp_path / "x").write_text("")
+    code, _, err = run(["demo", "--out", str(tmp_path)], capsys)
+    assert code == 2 and "not empty" in err
+
+
+def test_console_script_no_traceback(tmp_path):
+    p = tmp_path / "bad.csv"
+    p.write_text("time,uncertainty\nabc,1\n")
+    res = subprocess.run([sys.executable, "-m", "ttvkit.cli", "convert", str(p), "--standard", "BJD_TDB",
+                          "--ephemeris", "2456000,1.5", "--out", str(tmp_path / "o.ecsv")],
+                         capture_output=True, text=True)
+    assert res.returncode == 2
+    assert "Traceback" not in res.stderr
+    assert "row 1, column 'time'" in res.stderr

@@ -20,7 +20,7 @@ def test_version_and_help(capsys):
         main(["--version"])
     assert info.value.code == 0
     assert "ttvkit" in capsys.readouterr().out
-    for cmd in ("convert", "demo"):
+    for cmd in ("convert", "demo", "budget"):
         with pytest.raises(SystemExit):
             main([cmd, "--help"])
         assert "examples:" in capsys.readouterr().out
@@ -95,3 +95,37 @@ def test_console_script_no_traceback(tmp_path):
     assert res.returncode == 2
     assert "Traceback" not in res.stderr
     assert "row 1, column 'time'" in res.stderr
+
+
+def test_budget_json(demo_inputs, capsys):
+    code, out, _ = run(["budget", "--system", str(demo_inputs["system"]), "--amplitude", "50s",
+                        "--modulation-period", "9.5yr", "--json"], capsys)
+    assert code == 0
+    data = json.loads(out)
+    for model in ("thin shell", "finite shell"):
+        entry = data["models"][model]
+        for key in ("delta_P_over_P", "delta_J", "delta_E", "energy_ratio", "delta_L_over_L",
+                    "delta_Omega_over_Omega", "max_amplitude"):
+            assert key in entry
+        import astropy.units as u
+        assert u.Unit(entry["delta_J"]["unit"]) == u.kg * u.m ** 2 / u.s
+        assert u.Unit(entry["delta_E"]["unit"]) == u.J
+    # dP/P = 2 pi A / P_mod, independent of the model (Applegate 1992)
+    assert data["models"]["thin shell"]["delta_P_over_P"] == pytest.approx(2 * 3.141592653589793 * 50 / (9.5 * 365.25 * 86400))
+
+
+@pytest.mark.parametrize("args,match", [
+    (["--amplitude", "50", "--modulation-period", "9yr"], "--amplitude"),
+    (["--amplitude", "50s", "--modulation-period", "9 kg"], "--modulation-period"),
+    (["--amplitude=-5s", "--modulation-period", "9yr"], "positive"),
+])
+def test_budget_bad_options(demo_inputs, capsys, args, match):
+    code, _, err = run(["budget", "--system", str(demo_inputs["system"])] + args, capsys)
+    assert code == 2 and match in err and len(err.strip().splitlines()) == 1
+
+
+def test_budget_missing_system_value(tmp_path, capsys):
+    p = tmp_path / "s.toml"
+    p.write_text('[star]\nmass = "0.5 Msun"\nradius = "0.5 Rsun"\n[orbit]\nperiod = "1 d"\n')
+    code, _, err = run(["budget", "--system", str(p), "--amplitude", "5s", "--modulation-period", "9yr"], capsys)
+    assert code == 2 and "luminosity" in err

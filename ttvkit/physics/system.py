@@ -1,0 +1,290 @@
+"""The physical system: the star, its companion, the orbit, the RV limits.
+
+A :class:`System` is what the physical checks read.  It loads from a TOML
+file whose values carry units as strings, parsed with :mod:`astropy.units`
+(``mass = "0.92 Msun"``); dimensionless values are plain numbers.  A value a
+formula needs but the file lacks raises
+:class:`~ttvkit.errors.MissingValueError` naming the value and the formula.
+
+Derived values fill themselves in: the luminosity from R and T_eff
+(L = 4πR²σT⁴), the semi-major axis from a/R* or from Kepler's third law,
+and the other way round.
+"""
+
+from __future__ import annotations
+
+import sys
+from dataclasses import dataclass, field, fields
+from pathlib import Path
+
+import astropy.constants as const
+import astropy.units as u
+import numpy as np
+
+from ..errors import InputError, MissingValueError
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+__all__ = ["Star", "Companion", "Orbit", "RadialVelocityLimits", "System"]
+
+# key -> (unit the value must convert to, or None for dimensionless), per table
+_SCHEMA = {
+    "star": {"mass": u.Msun, "radius": u.Rsun, "teff": u.K, "luminosity": u.Lsun,
+             "rotation_period": u.day, "activity_cycle": u.yr, "variability_amplitude": None,
+             "polytropic_index": None, "ra": u.deg, "dec": u.deg, "age": u.Gyr},
+    "companion": {"mass": u.Mjup, "radius": u.Rjup, "love_number": None},
+    "orbit": {"period": u.day, "semi_major_axis": u.AU, "a_over_rstar": None,
+              "eccentricity": None, "omega": u.deg, "inclination": u.deg},
+    "radial_velocity": {"baseline": u.yr, "residual_rms": u.m / u.s, "jitter": u.m / u.s,
+                        "acceleration": u.m / u.s / u.day,
+                        "acceleration_uncertainty": u.m / u.s / u.day},
+}
+
+
+def _need(obj, name: str, formula: str):
+    value = getattr(obj, name)
+    if value is None:
+        section = getattr(obj, "_section", "")
+        raise MissingValueError(f"{section}.{name} is needed for {formula} but was not given; "
+                                f"add it to the system file's [{section}] table")
+    return value
+
+
+@dataclass
+class Star:
+    """The host star (or, for an eclipsing binary, the active star).
+
+    Attributes
+    ----------
+    mass, radius : Quantity
+    teff, luminosity : Quantity, optional
+        One is enough; the luminosity follows from R and T_eff.
+    rotation_period : Quantity, optional
+        The star's own spin; the activity budget uses it.
+    activity_cycle : Quantity, optional
+        A known activity-cycle length.
+    variability_amplitude : float, optional
+        Observed peak-to-peak photometric variability (relative flux).
+    polytropic_index : float, optional
+        Structure of the finite-shell model.  Default 1.5 below 0.5 M☉ (fully
+        convective below about 0.35 M☉, Chabrier & Baraffe 1997, and convective
+        through most of the radius up to about 0.5 M☉) and 3 above (Eddington's
+        standard model of a radiative Sun-like star); both from memory.
+    """
+
+    mass: u.Quantity | None = None
+    radius: u.Quantity | None = None
+    teff: u.Quantity | None = None
+    luminosity: u.Quantity | None = None
+    rotation_period: u.Quantity | None = None
+    activity_cycle: u.Quantity | None = None
+    variability_amplitude: float | None = None
+    polytropic_index: float | None = None
+    ra: u.Quantity | None = None
+    dec: u.Quantity | None = None
+    age: u.Quantity | None = None
+    _section: str = field(default="star", repr=False)
+
+    def __post_init__(self):
+        if self.luminosity is None and self.teff is not None and self.radius is not None:
+            self.luminosity = (4 * np.pi * self.radius ** 2 * const.sigma_sb
+                               * self.teff ** 4).to(u.Lsun)
+
+    def need(self, name: str, formula: str):
+        """The value ``name``, or a MissingValueError naming it and ``formula``."""
+        return _need(self, name, formula)
+
+    @property
+    def structure_index(self) -> float:
+        """Polytropic index used for the finite-shell model (stated in results)."""
+        if self.polytropic_index is not None:
+            return float(self.polytropic_index)
+        mass = self.need("mass", "the stellar structure")
+        return 1.5 if mass < 0.5 * u.Msun else 3.0
+
+
+@dataclass
+class Companion:
+    """The transiting planet, or the other star of an eclipsing binary."""
+
+    mass: u.Quantity | None = None
+    radius: u.Quantity | None = None
+    love_number: float | None = None
+    _section: str = field(default="companion", repr=False)
+
+    def need(self, name: str, formula: str):
+        """The value ``name``, or a MissingValueError naming it and ``formula``."""
+        return _need(self, name, formula)
+
+
+@dataclass
+class Orbit:
+    """The orbit of the companion."""
+
+    period: u.Quantity | None = None
+    semi_major_axis: u.Quantity | None = None
+    a_over_rstar: float | None = None
+    eccentricity: float | None = 0.0
+    omega: u.Quantity | None = None
+    inclination: u.Quantity | None = None
+    _section: str = field(default="orbit", repr=False)
+
+    def need(self, name: str, formula: str):
+        """The value ``name``, or a MissingValueError naming it and ``formula``."""
+        return _need(self, name, formula)
+
+
+@dataclass
+class RadialVelocityLimits:
+    """What radial velocities already say (all optional)."""
+
+    baseline: u.Quantity | None = None
+    residual_rms: u.Quantity | None = None
+    jitter: u.Quantity | None = None
+    acceleration: u.Quantity | None = None
+    acceleration_uncertainty: u.Quantity | None = None
+    _section: str = field(default="radial_velocity", repr=False)
+
+    def need(self, name: str, formula: str):
+        """The value ``name``, or a MissingValueError naming it and ``formula``."""
+        return _need(self, name, formula)
+
+    @property
+    def scatter(self) -> u.Quantity | None:
+        """The RV noise floor: the residual RMS, else the jitter."""
+        return self.residual_rms if self.residual_rms is not None else self.jitter
+
+
+@dataclass
+class System:
+    """A star, its companion, their orbit and the RV limits.
+
+    Examples
+    --------
+    >>> import astropy.units as u
+    >>> s = System(Star(mass=1 * u.Msun, radius=1 * u.Rsun, teff=5772 * u.K),
+    ...            Companion(mass=1 * u.Mjup), Orbit(period=365.25 * u.day))
+    >>> round(s.semi_major_axis.to_value(u.AU), 3)
+    1.0
+    """
+
+    star: Star
+    companion: Companion = field(default_factory=Companion)
+    orbit: Orbit = field(default_factory=Orbit)
+    radial_velocity: RadialVelocityLimits = field(default_factory=RadialVelocityLimits)
+    name: str = "unnamed system"
+
+    def __post_init__(self):
+        o, s = self.orbit, self.star
+        if o.semi_major_axis is None and o.a_over_rstar is not None and s.radius is not None:
+            o.semi_major_axis = (o.a_over_rstar * s.radius).to(u.AU)
+        if o.semi_major_axis is None and o.period is not None and s.mass is not None:
+            total = s.mass + (self.companion.mass if self.companion.mass is not None else 0 * u.Msun)
+            o.semi_major_axis = ((const.G * total * o.period ** 2 / (4 * np.pi ** 2)) ** (1 / 3)).to(u.AU)
+        if o.a_over_rstar is None and o.semi_major_axis is not None and s.radius is not None:
+            o.a_over_rstar = float((o.semi_major_axis / s.radius).decompose())
+
+    @property
+    def semi_major_axis(self) -> u.Quantity:
+        """Orbital semi-major axis (from the file, from a/R*, or from Kepler's third law)."""
+        return self.orbit.need("semi_major_axis", "the orbit's size (or give period and star.mass)")
+
+    @classmethod
+    def from_toml(cls, path: "str | Path") -> "System":
+        """Load a system file (TOML, values with units as strings).
+
+        Raises
+        ------
+        InputError
+            Unreadable TOML, unknown tables or keys, unparseable or wrong units.
+        """
+        path = Path(path)
+        try:
+            data = tomllib.loads(path.read_text(encoding="utf-8"))
+        except FileNotFoundError:
+            raise InputError(f"{path}: no such file") from None
+        except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+            raise InputError(f"{path}: not valid TOML ({exc})") from None
+        return cls.from_dict(data, str(path))
+
+    @classmethod
+    def from_dict(cls, data: dict, where: str = "system") -> "System":
+        """Build a System from nested dicts of strings/numbers (as in the TOML file)."""
+        name = data.get("name", "unnamed system")
+        tables = {}
+        for section, schema in _SCHEMA.items():
+            raw = data.get(section, {})
+            if not isinstance(raw, dict):
+                raise InputError(f"{where}: [{section}] must be a table")
+            values = {}
+            for key, value in raw.items():
+                if key not in schema:
+                    raise InputError(f"{where}: [{section}] has unknown key {key!r}; known keys: "
+                                     f"{', '.join(schema)}")
+                values[key] = _parse(value, schema[key], where, section, key)
+            tables[section] = values
+        for section in data:
+            if section not in _SCHEMA and section != "name":
+                raise InputError(f"{where}: unknown table [{section}]; known tables: "
+                                 f"{', '.join(_SCHEMA)}")
+        star = Star(**tables["star"])
+        for key in ("mass", "radius"):
+            star.need(key, f"every physical check (system file {where})")
+        _check_ranges(where, tables)
+        return cls(star, Companion(**tables["companion"]), Orbit(**tables["orbit"]),
+                   RadialVelocityLimits(**tables["radial_velocity"]), str(name))
+
+    def to_dict(self) -> dict:
+        """Plain-JSON form, each quantity as ``{"value", "unit"}``."""
+        out = {"name": self.name}
+        for section in ("star", "companion", "orbit", "radial_velocity"):
+            obj = getattr(self, section)
+            entry = {}
+            for f in fields(obj):
+                if f.name.startswith("_"):
+                    continue
+                v = getattr(obj, f.name)
+                if isinstance(v, u.Quantity):
+                    entry[f.name] = {"value": float(v.value), "unit": v.unit.to_string()}
+                elif v is not None:
+                    entry[f.name] = v
+            out[section] = entry
+        return out
+
+
+def _parse(value, unit, where, section, key):
+    if unit is None:
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise InputError(f"{where}: [{section}] {key} = {value!r} must be a plain number")
+        return float(value)
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        raise InputError(f"{where}: [{section}] {key} = {value!r} needs a unit, e.g. "
+                         f"\"{value} {unit.to_string()}\"")
+    try:
+        q = u.Quantity(str(value))
+    except (TypeError, ValueError):
+        raise InputError(f"{where}: [{section}] {key} = {value!r}: unparseable quantity; write "
+                         f"a number and an astropy unit, e.g. \"1.0 {unit.to_string()}\"") from None
+    try:
+        return q.to(unit)
+    except u.UnitConversionError:
+        raise InputError(f"{where}: [{section}] {key} = {value!r}: unit {q.unit} cannot be "
+                         f"converted to {unit.to_string()}") from None
+
+
+def _check_ranges(where, tables):
+    positive = {"star": ["mass", "radius", "teff", "luminosity", "rotation_period", "activity_cycle"],
+                "companion": ["mass", "radius"],
+                "orbit": ["period", "semi_major_axis", "a_over_rstar"],
+                "radial_velocity": ["baseline", "residual_rms", "jitter"]}
+    for section, keys in positive.items():
+        for key in keys:
+            v = tables[section].get(key)
+            if v is not None and not (float(getattr(v, "value", v)) > 0):
+                raise InputError(f"{where}: [{section}] {key} must be positive")
+    e = tables["orbit"].get("eccentricity")
+    if e is not None and not (0 <= e < 1):
+        raise InputError(f"{where}: [orbit] eccentricity = {e} must be in [0, 1)")

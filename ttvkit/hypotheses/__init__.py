@@ -1,0 +1,103 @@
+"""Timing hypotheses: every explanation of a timing drift, one small module each.
+
+=============================  ===============================================
+name                           model
+=============================  ===============================================
+``constant-period``            T0 + P·E
+``orbital-decay``              + ½ (dP/dE) E² (Patra et al. 2017)
+``apsidal-precession``         first order in e (Giménez & Bastero 1995)
+``sinusoidal-modulation``      + A sin(2π(T−T0)/P_mod + φ): an activity cycle's
+                               shape (Applegate 1992); A is the O−C
+                               semi-amplitude
+``light-travel-time``          + Irwin (1952) delay of a distant companion
+``near-resonant-perturber``    + sinusoid at the super-period (Lithwick, Xie &
+                               Wu 2012); ``near-resonant-perturber(j=3)``
+                               for other resonances
+=============================  ===============================================
+
+Hypotheses that make sense together are joined with ``+``:
+``orbital-decay+sinusoidal-modulation`` (one ephemeris term — constant
+period, decay or precession — plus any additive terms).  A new hypothesis
+is one small module with a :class:`~ttvkit.hypotheses.base.Term` subclass,
+registered in ``_TERMS`` below.
+"""
+
+from __future__ import annotations
+
+import re
+
+from ..errors import InputError
+from .base import Derived, Hypothesis, Parameter, Term, TimingData
+from .ephemerides import ConstantPeriod, OrbitalDecay
+from .light_time import LightTravelTime
+from .modulation import SinusoidalModulation
+from .precession import ApsidalPrecession
+from .resonance import NearResonantPerturber
+
+__all__ = ["Hypothesis", "Term", "Parameter", "Derived", "TimingData", "get_hypothesis",
+           "HYPOTHESIS_NAMES", "DEFAULT_COMPARISON", "ConstantPeriod", "OrbitalDecay",
+           "ApsidalPrecession", "SinusoidalModulation", "LightTravelTime", "NearResonantPerturber"]
+
+_TERMS = {
+    "constant-period": ConstantPeriod,
+    "orbital-decay": OrbitalDecay,
+    "apsidal-precession": ApsidalPrecession,
+    "sinusoidal-modulation": SinusoidalModulation,
+    "light-travel-time": LightTravelTime,
+    "near-resonant-perturber": NearResonantPerturber,
+}
+
+#: The single hypotheses, by name.
+HYPOTHESIS_NAMES = tuple(_TERMS)
+
+#: What ``compare`` fits by default: every hypothesis and the sensible pairs.
+DEFAULT_COMPARISON = HYPOTHESIS_NAMES + ("orbital-decay+sinusoidal-modulation",
+                                         "orbital-decay+light-travel-time")
+
+_RESONANCE = re.compile(r"^near-resonant-perturber(?:\((?P<args>[^)]*)\))?$")
+
+
+def _term(name: str) -> Term:
+    name = name.strip()
+    match = _RESONANCE.match(name)
+    if match:
+        kwargs = {}
+        for item in filter(None, (a.strip() for a in (match["args"] or "").split(","))):
+            if item == "inner":
+                kwargs["inside"] = True
+            elif item.startswith("j="):
+                try:
+                    kwargs["j"] = int(item[2:])
+                except ValueError:
+                    raise InputError(f"hypothesis {name!r}: j must be an integer") from None
+            else:
+                raise InputError(f"hypothesis {name!r}: unknown option {item!r} (use j=N, inner)")
+        try:
+            return NearResonantPerturber(**kwargs)
+        except ValueError as exc:
+            raise InputError(f"hypothesis {name!r}: {exc}") from None
+    if name not in _TERMS:
+        raise InputError(f"unknown hypothesis {name!r}; known: {', '.join(HYPOTHESIS_NAMES)} "
+                         "(join compatible ones with '+')")
+    return _TERMS[name]()
+
+
+def get_hypothesis(name: str) -> Hypothesis:
+    """The hypothesis called ``name`` (terms joined with ``+``).
+
+    Examples
+    --------
+    >>> get_hypothesis("orbital-decay+sinusoidal-modulation").name
+    'orbital-decay+sinusoidal-modulation'
+    """
+    terms = [_term(part) for part in str(name).split("+")]
+    ephemerides = [t for t in terms if t.is_ephemeris]
+    others = [t for t in terms if not t.is_ephemeris]
+    if len(ephemerides) > 1:
+        raise InputError(f"hypothesis {name!r} joins {len(ephemerides)} ephemeris terms "
+                         f"({', '.join(t.key for t in ephemerides)}); use one of them")
+    ephemeris = ephemerides[0] if ephemerides else ConstantPeriod()
+    keys = [t.key for t in others]
+    if len(set(keys)) != len(keys):
+        raise InputError(f"hypothesis {name!r} repeats a term")
+    return Hypothesis(ephemeris, others)

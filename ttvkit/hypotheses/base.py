@@ -1,0 +1,255 @@
+"""The shape every timing hypothesis shares.
+
+A hypothesis is an **ephemeris term** (constant period, decaying period or
+precessing orbit: where the mid-times would be) plus any number of
+**additive terms** (a modulation, a light-travel-time orbit, a resonant
+perturber: what shifts them).  Each term is one small class: it declares
+its parameters (name, unit, bounds of the default uniform prior, starting
+guesses from the data) and evaluates its contribution for arrays of
+parameter values.  A term knows nothing of fitting, sampling or plotting.
+
+Parameter vectors may carry leading dimensions (an ensemble of walkers):
+``theta`` of shape ``(..., n_parameters)`` gives predictions of shape
+``(..., n_points)``.  Times inside are days relative to the data's
+reference time ``t_ref`` (BJD_TDB), so that least squares never differences
+numbers of size 2.4 × 10⁶.
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+from dataclasses import dataclass, field
+
+import numpy as np
+
+__all__ = ["Parameter", "Derived", "TimingData", "Term", "Hypothesis"]
+
+DAY_S = 86400.0
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """One fitted parameter.
+
+    Attributes
+    ----------
+    name : str
+        Name in the results (plain words of the trade).
+    unit : str
+        Unit shown to users.
+    to_display : float
+        Factor from the internal value to the shown unit.
+    description : str
+    periodic : float or None
+        Period of a cyclic parameter (2π for an angle), else None.
+    """
+
+    name: str
+    unit: str
+    description: str
+    to_display: float = 1.0
+    periodic: float | None = None
+
+
+@dataclass(frozen=True)
+class Derived:
+    """A derived quantity: sample values (display units), unit, description."""
+
+    values: np.ndarray
+    unit: str
+    description: str
+
+
+@dataclass
+class TimingData:
+    """The numbers a hypothesis needs, taken from a TimingTable.
+
+    Attributes
+    ----------
+    epoch : ndarray of float
+    phase : ndarray
+        0 for transits and primary eclipses, 0.5 for occultations and
+        secondary eclipses.
+    secondary : ndarray of bool
+        True for occultations and secondary eclipses.
+    time : ndarray
+        Mid-times minus ``t_ref`` (days).
+    sigma : ndarray
+        1σ uncertainties (days).
+    t_ref : float
+        BJD_TDB of the reference (the constant-period T0 guess).
+    period : float
+        Constant-period guess (days).
+    context : dict
+        Optional physical context for derived quantities (e.g. star mass).
+    """
+
+    epoch: np.ndarray
+    phase: np.ndarray
+    secondary: np.ndarray
+    time: np.ndarray
+    sigma: np.ndarray
+    t_ref: float
+    period: float
+    context: dict = field(default_factory=dict)
+
+    @classmethod
+    def from_table(cls, table, context: dict | None = None) -> "TimingData":
+        """Build from a :class:`~ttvkit.timing.TimingTable` (a weighted linear fit sets t_ref, P)."""
+        from ..timing import KINDS
+
+        epoch = table.epoch.astype(float)
+        phase = np.array([KINDS[k] for k in table.kind])
+        x = epoch + phase
+        w = 1.0 / table.uncertainty
+        design = np.column_stack([np.ones_like(x), x])
+        t_anchor = float(np.round(np.median(table.time), 1))
+        coef, *_ = np.linalg.lstsq(design * w[:, None], (table.time - t_anchor) * w, rcond=None)
+        t_ref = t_anchor + float(coef[0])
+        return cls(epoch, phase, phase > 0, table.time - t_ref, table.uncertainty.copy(), t_ref,
+                   float(coef[1]), dict(context or {}))
+
+    @property
+    def n(self) -> int:
+        """Number of mid-times."""
+        return int(self.time.size)
+
+    def linear_residuals(self) -> np.ndarray:
+        """Residuals (days) from the weighted constant-period fit."""
+        x = self.epoch + self.phase
+        w = 1.0 / self.sigma
+        design = np.column_stack([np.ones_like(x), x])
+        coef, *_ = np.linalg.lstsq(design * w[:, None], self.time * w, rcond=None)
+        return self.time - design @ coef
+
+    @property
+    def span(self) -> float:
+        """Time covered by the data (days)."""
+        return float(np.ptp(self.time)) if self.n > 1 else 0.0
+
+
+class Term(ABC):
+    """One part of a hypothesis: an ephemeris or an additive timing signal."""
+
+    #: registry key of the term
+    key: str = ""
+    #: True for the ephemeris terms (exactly one per hypothesis, first)
+    is_ephemeris: bool = False
+    #: plain-language statement of the physical model and its assumptions
+    assumptions: str = ""
+
+    @abstractmethod
+    def parameters(self) -> tuple[Parameter, ...]:
+        """The term's parameters, in order."""
+
+    @abstractmethod
+    def bounds(self, data: TimingData) -> tuple[np.ndarray, np.ndarray]:
+        """Lower and upper bounds (internal units) of the default uniform prior."""
+
+    @abstractmethod
+    def guesses(self, data: TimingData, residuals: np.ndarray) -> list[np.ndarray]:
+        """Starting values (internal units), best first; several for multi-start."""
+
+    @abstractmethod
+    def evaluate(self, p: dict, data: TimingData, base: dict) -> np.ndarray:
+        """Contribution to the mid-times (days).
+
+        ``p`` maps this term's parameter names to arrays of shape ``(..., 1)``;
+        ``base`` holds the ephemeris parameters (``T0``, ``P``) likewise.
+        """
+
+    def derived(self, p: dict, data: TimingData) -> dict:
+        """Derived quantities: name → :class:`Derived`, from parameter samples."""
+        return {}
+
+
+class Hypothesis:
+    """An ephemeris term plus additive terms: one explanation of the mid-times.
+
+    Parameters
+    ----------
+    ephemeris : Term
+        A term with ``is_ephemeris`` true.
+    terms : sequence of Term
+        Additive terms.
+    name : str, optional
+        Defaults to the term keys joined by ``+``.
+    """
+
+    def __init__(self, ephemeris: Term, terms=(), name: str | None = None):
+        if not ephemeris.is_ephemeris:
+            raise ValueError(f"{ephemeris.key} is not an ephemeris term")
+        self.ephemeris = ephemeris
+        self.terms = tuple(terms)
+        keys = [ephemeris.key] + [t.key for t in self.terms]
+        self.name = name or "+".join(k for k in keys if k != "constant-period") or "constant-period"
+        self._slices = []
+        start = 0
+        for term in (self.ephemeris,) + self.terms:
+            count = len(term.parameters())
+            self._slices.append((term, slice(start, start + count)))
+            start += count
+        self.n_parameters = start
+
+    def __repr__(self) -> str:
+        return f"<Hypothesis {self.name}: {', '.join(p.name for p in self.parameters())}>"
+
+    def parameters(self) -> tuple[Parameter, ...]:
+        """All parameters, ephemeris first."""
+        return tuple(p for term, _ in self._slices for p in term.parameters())
+
+    @property
+    def assumptions(self) -> str:
+        """The assumptions of every term, joined."""
+        return " ".join(t.assumptions for t, _ in self._slices if t.assumptions)
+
+    def split(self, theta) -> list[tuple[Term, dict]]:
+        """Per term: a name → array mapping of its parameters (trailing axis kept)."""
+        theta = np.asarray(theta, float)
+        out = []
+        for term, sl in self._slices:
+            names = [p.name for p in term.parameters()]
+            out.append((term, {n: theta[..., sl][..., i:i + 1] for i, n in enumerate(names)}))
+        return out
+
+    def predict(self, theta, data: TimingData) -> np.ndarray:
+        """Predicted mid-times minus ``data.t_ref`` (days), shape ``(..., n)``."""
+        parts = self.split(theta)
+        base_term, base = parts[0]
+        total = base_term.evaluate(base, data, base)
+        for term, p in parts[1:]:
+            total = total + term.evaluate(p, data, base)
+        return total
+
+    def bounds(self, data: TimingData) -> tuple[np.ndarray, np.ndarray]:
+        """Bounds of the default uniform priors (internal units)."""
+        lo, hi = zip(*(term.bounds(data) for term, _ in self._slices))
+        return np.concatenate(lo), np.concatenate(hi)
+
+    def starts(self, data: TimingData, limit: int = 60) -> list[np.ndarray]:
+        """Starting vectors for multi-start optimisation (cartesian over term guesses)."""
+        residuals = data.linear_residuals()
+        options = [term.guesses(data, residuals) for term, _ in self._slices]
+        starts = [np.concatenate(c) for c in _bounded_product(options, limit)]
+        lo, hi = self.bounds(data)
+        span = hi - lo
+        return [np.clip(s, lo + 1e-9 * span, hi - 1e-9 * span) for s in starts]
+
+    def derived(self, theta, data: TimingData) -> dict:
+        """Derived quantities of every term from parameter samples ``(..., n_parameters)``."""
+        out = {}
+        parts = self.split(theta)
+        base = parts[0][1]
+        for term, p in parts:
+            merged = dict(base)
+            merged.update(p)
+            out.update(term.derived(merged, data))
+        return out
+
+
+def _bounded_product(options, limit):
+    """Cartesian product of option lists, best-first, at most ``limit`` items."""
+    import itertools
+
+    combos = sorted(itertools.product(*[range(len(o)) for o in options]), key=lambda c: (sum(c), c))
+    return [[options[i][k] for i, k in enumerate(c)] for c in combos[:limit]]

@@ -1,0 +1,87 @@
+"""Apsidal precession of a slightly eccentric orbit.
+
+The first-order-in-e timing model of Giménez & Bastero (1995, Ap&SS 226,
+99) in the form used for exoplanets by Patra et al. (2017, AJ 154, 4,
+eqs. 4–6):
+
+    t_tra(E) = T0 + P_s E − (e P_a / π) cos ω(E)
+    t_occ(E) = T0 + P_s E + P_a/2 + (e P_a / π) cos ω(E)
+    ω(E) = ω0 + (dω/dE) E,   P_s = P_a (1 − (dω/dE) / 2π),
+
+so transits and occultations shift in opposite senses.  The sampled
+parameters are e cos ω0 and e sin ω0 (no boundary at e = 0) and dω/dE.
+Assumptions: e small enough for first order (bounded at 0.1 here), a
+constant precession rate, the orbit otherwise unchanged.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .base import Derived, Parameter, Term, TimingData
+
+__all__ = ["ApsidalPrecession"]
+
+
+class ApsidalPrecession(Term):
+    """Precessing eccentric orbit (Giménez & Bastero 1995, first order in e)."""
+
+    key = "apsidal-precession"
+    is_ephemeris = True
+    assumptions = ("A slightly eccentric orbit (first order in e) whose line of apsides turns at "
+                   "a constant rate; transits and occultations shift in opposite senses.")
+
+    def parameters(self):
+        return (Parameter("T0", "BJD_TDB", "mid-time of epoch 0"),
+                Parameter("P", "d", "sidereal period P_s"),
+                Parameter("e_cos_omega0", "", "e cos ω0"),
+                Parameter("e_sin_omega0", "", "e sin ω0"),
+                Parameter("domega_dE", "rad/epoch", "precession rate per orbit"))
+
+    def _rate_range(self, data: TimingData):
+        n_epochs = max(np.ptp(data.epoch), 10.0)
+        return 2 * np.pi / (20 * n_epochs), 2 * np.pi / 20.0
+
+    def bounds(self, data):
+        low_rate, high_rate = self._rate_range(data)
+        lo = np.array([-0.1 * data.period, data.period * (1 - 1e-3), -0.1, -0.1, low_rate])
+        hi = np.array([0.1 * data.period, data.period * (1 + 1e-3), 0.1, 0.1, high_rate])
+        return lo, hi
+
+    def guesses(self, data, residuals):
+        n_epochs = max(np.ptp(data.epoch), 10.0)
+        sign = np.where(data.secondary, 1.0, -1.0)
+        w = 1 / data.sigma
+        out = []
+        for periods in (0.5, 1.0, 2.0, 4.0):
+            rate = 2 * np.pi / (periods * n_epochs)
+            amp = data.period / np.pi
+            x = data.epoch + data.phase
+            design = np.column_stack([np.ones_like(x), x, sign * amp * np.cos(rate * data.epoch),
+                                      -sign * amp * np.sin(rate * data.epoch)])
+            coef, *_ = np.linalg.lstsq(design * w[:, None], data.time * w, rcond=None)
+            k, h = np.clip(coef[2:], -0.09, 0.09)
+            out.append(np.array([coef[0], coef[1], k, h, rate]))
+        return out
+
+    def evaluate(self, p, data, base):
+        rate = p["domega_dE"]
+        p_anom = p["P"] / (1 - rate / (2 * np.pi))
+        angle = rate * data.epoch
+        e_cos = p["e_cos_omega0"] * np.cos(angle) - p["e_sin_omega0"] * np.sin(angle)
+        sign = np.where(data.secondary, 1.0, -1.0)
+        return (p["T0"] + p["P"] * data.epoch + np.where(data.secondary, 0.5, 0.0) * p_anom
+                + sign * e_cos * p_anom / np.pi)
+
+    def derived(self, p, data):
+        k, h = p["e_cos_omega0"][..., 0], p["e_sin_omega0"][..., 0]
+        rate = p["domega_dE"][..., 0]
+        period = p["P"][..., 0]
+        p_anom = period / (1 - rate / (2 * np.pi))
+        return {
+            "eccentricity": Derived(np.hypot(k, h), "", "orbital eccentricity"),
+            "omega0": Derived(np.degrees(np.arctan2(h, k)) % 360, "deg", "argument of periastron at epoch 0"),
+            "anomalistic_period": Derived(p_anom, "d", "P_a"),
+            "precession_period": Derived(2 * np.pi / rate * period / 365.25, "yr", "time for ω to turn once"),
+            "domega_dt": Derived(np.degrees(rate / period) * 365.25, "deg/yr", "precession rate"),
+        }

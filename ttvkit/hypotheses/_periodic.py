@@ -22,11 +22,18 @@ def period_range(data: TimingData) -> tuple[float, float]:
     return max(20 * data.period, span / 40.0), 5.0 * span
 
 
-def candidate_periods(data: TimingData, residuals: np.ndarray, count: int = 4) -> list[float]:
-    """The ``count`` highest Lomb–Scargle peaks of the residuals, in days."""
+def candidate_periods(data: TimingData, residuals: np.ndarray, count: int = 4,
+                      shortest: float | None = None) -> list[float]:
+    """The ``count`` highest Lomb–Scargle peaks of the residuals, in days.
+
+    ``shortest`` overrides the short end of :func:`period_range` (a
+    near-resonant super-period can be a few tens of orbits).
+    """
     from astropy.timeseries import LombScargle
 
     lo, hi = period_range(data)
+    if shortest is not None:
+        lo = shortest
     t = data.epoch * data.period
     if data.n < 4:
         return [np.sqrt(lo * hi)]

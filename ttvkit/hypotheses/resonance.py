@@ -70,7 +70,9 @@ class NearResonantPerturber(Term):
         j, period = self.j, data.period
         lo, hi = self.bounds(data)[0][2], self.bounds(data)[1][2]
         out = []
-        for p_j in candidate_periods(data, residuals):
+        # the shortest super-period within the allowed distance from resonance
+        shortest = max(3 * period, self._ratio() * period / (j * self.max_distance))
+        for p_j in candidate_periods(data, residuals, shortest=shortest):
             for sign in (1.0, -1.0):
                 if self.inside:
                     p_pert = (j - 1) / (j / period + sign / p_j)

@@ -1,19 +1,14 @@
 """Timing hypotheses: every explanation of a timing drift, one small module each.
 
-=============================  ===============================================
-name                           model
-=============================  ===============================================
-``constant-period``            T0 + P·E
-``orbital-decay``              + ½ (dP/dE) E² (Patra et al. 2017)
-``apsidal-precession``         first order in e (Giménez & Bastero 1995)
-``sinusoidal-modulation``      + A sin(2π(T−T0)/P_mod + φ): an activity cycle's
-                               shape (Applegate 1992); A is the O−C
-                               semi-amplitude
-``light-travel-time``          + Irwin (1952) delay of a distant companion
-``near-resonant-perturber``    + sinusoid at the super-period (Lithwick, Xie &
-                               Wu 2012); ``near-resonant-perturber(j=3)``
-                               for other resonances
-=============================  ===============================================
+* ``constant-period``: T0 + P·E;
+* ``orbital-decay``: adds ½ (dP/dE) E² (Patra et al. 2017);
+* ``apsidal-precession``: first order in e (Giménez & Bastero 1995);
+* ``sinusoidal-modulation``: adds A sin(2π(T−T0)/P_mod + φ), an activity
+  cycle's shape (Applegate 1992); A is the O−C semi-amplitude;
+* ``light-travel-time``: adds the Irwin (1952) delay of a distant companion;
+* ``near-resonant-perturber``: adds a sinusoid at the super-period
+  (Lithwick, Xie & Wu 2012); ``near-resonant-perturber(j=3)`` for other
+  resonances.
 
 Hypotheses that make sense together are joined with ``+``:
 ``orbital-decay+sinusoidal-modulation`` (one ephemeris term — constant

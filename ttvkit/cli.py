@@ -123,9 +123,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     p.set_defaults(func=_cmd_budget)
 
-    from . import cli_fitting
+    from . import cli_diagnose, cli_fitting
 
     cli_fitting.add_commands(sub)
+    cli_diagnose.add_commands(sub)
     return parser
 
 

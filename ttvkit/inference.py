@@ -188,7 +188,8 @@ def _hessian(func, x, step):
 
 
 def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None, seed: int = 0,
-           progress: bool = True, require_convergence: bool = False) -> FitResult:
+           progress: bool = True, require_convergence: bool = False,
+           max_steps: int | None = None) -> FitResult:
     """Sample the posterior of a fitted hypothesis with emcee; returns a new FitResult.
 
     Parameters
@@ -205,6 +206,9 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
         Show a tqdm progress bar.
     require_convergence : bool
         Raise ConvergenceError instead of warning when n_steps < 50 τ.
+    max_steps : int, optional
+        If given and the chain is shorter than 50 τ after ``n_steps``, keep
+        sampling in chunks until it is, or until ``max_steps``.
 
     Returns
     -------
@@ -244,6 +248,12 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
     sampler.run_mcmc(ball, n_steps, progress=progress, progress_kwargs={"desc": hyp.name})
     tau = sampler.get_autocorr_time(tol=0)
     tau_max = float(np.nanmax(tau)) if np.all(np.isfinite(tau)) else float("inf")
+    while max_steps is not None and n_steps < 50 * tau_max and n_steps < max_steps:
+        more = int(min(max_steps - n_steps, max(n_steps // 2, 50 * tau_max - n_steps + 1)))
+        sampler.run_mcmc(None, more, progress=progress, progress_kwargs={"desc": hyp.name})
+        n_steps += more
+        tau = sampler.get_autocorr_time(tol=0)
+        tau_max = float(np.nanmax(tau)) if np.all(np.isfinite(tau)) else float("inf")
     converged = n_steps >= 50 * tau_max
     notes = list(result.warnings)
     if not converged:
@@ -270,7 +280,7 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
 
 def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None = None,
             context: dict | None = None, sampled: bool = False, n_steps: int = 3000, seed: int = 0,
-            progress: bool = True, executor=None) -> Comparison:
+            progress: bool = True, executor=None, max_steps: int | None = None) -> Comparison:
     """Fit every hypothesis (and optionally sample each) and sort by BIC.
 
     Parameters
@@ -281,7 +291,7 @@ def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None 
         As in :func:`fit`.
     sampled : bool
         Also sample each posterior (:func:`sample`).
-    n_steps, seed, progress
+    n_steps, seed, progress, max_steps
         Passed to :func:`sample`.
     executor : object with ``map``, optional
         Runs the hypotheses concurrently (a process pool, a dask client);
@@ -292,15 +302,15 @@ def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None 
     Comparison
     """
     data = _data(table, context)
-    jobs = [(h, data, likelihood, sampled, n_steps, seed, progress and executor is None)
+    jobs = [(h, data, likelihood, sampled, n_steps, seed, progress and executor is None, max_steps)
             for h in hypotheses]
     mapper = executor.map if executor is not None else map
     return Comparison(list(mapper(_one, jobs)))
 
 
 def _one(job):
-    h, data, like, sampled, n_steps, seed, progress = job
+    h, data, like, sampled, n_steps, seed, progress, max_steps = job
     result = fit(data, h, like)
     if sampled:
-        result = sample(result, n_steps=n_steps, seed=seed, progress=progress)
+        result = sample(result, n_steps=n_steps, seed=seed, progress=progress, max_steps=max_steps)
     return result

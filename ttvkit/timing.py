@@ -319,6 +319,29 @@ class TimingTable:
                            ephemeris=ephemeris, columns=columns or {}, units=units or {},
                            source=source or Path(path).name)
 
+    def relabel_source(self, source: str, standard: str) -> "TimingTable":
+        """A copy in which ``source``'s times are re-read as given in ``standard``.
+
+        For a source the standards check flagged: its original numbers are
+        recovered from its recorded ``given_standard`` and converted again,
+        and the new standard is recorded.  The table itself is unchanged.
+        """
+        from .timescales import from_bjd_tdb, parse_standard, to_bjd_tdb
+
+        mine = self.source == source
+        if not mine.any():
+            raise InputError(f"no source {source!r} in the table; sources: {', '.join(self.sources)}")
+        new = parse_standard(standard)
+        out = self.subset(np.arange(len(self)))
+        for given in np.unique(self.given_standard[mine]):
+            rows = mine & (self.given_standard == given)
+            original = from_bjd_tdb(self.time[rows], given, self.target) if given != "BJD_TDB" else self.time[rows]
+            out.time[rows] = to_bjd_tdb(original, new, self.target) if new.name != "BJD_TDB" else original
+        labels = out.given_standard.astype(object)  # a longer name must not be truncated
+        labels[mine] = new.name
+        out.given_standard = labels.astype(str)
+        return out
+
     def check_standards(self, **kwargs):
         """Sources whose times look shifted by a time-standard mix-up.
 

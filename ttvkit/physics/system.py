@@ -37,7 +37,8 @@ _SCHEMA = {
              "polytropic_index": None, "ra": u.deg, "dec": u.deg, "age": u.Gyr},
     "companion": {"mass": u.Mjup, "radius": u.Rjup, "love_number": None},
     "orbit": {"period": u.day, "semi_major_axis": u.AU, "a_over_rstar": None,
-              "eccentricity": None, "omega": u.deg, "inclination": u.deg},
+              "eccentricity": None, "eccentricity_limit": None, "omega": u.deg,
+              "inclination": u.deg},
     "radial_velocity": {"baseline": u.yr, "residual_rms": u.m / u.s, "jitter": u.m / u.s,
                         "acceleration": u.m / u.s / u.day,
                         "acceleration_uncertainty": u.m / u.s / u.day},
@@ -122,12 +123,17 @@ class Companion:
 
 @dataclass
 class Orbit:
-    """The orbit of the companion."""
+    """The orbit of the companion.
+
+    ``eccentricity_limit`` is an upper limit from RVs or occultation timing,
+    used to test the apsidal-precession hypothesis.
+    """
 
     period: u.Quantity | None = None
     semi_major_axis: u.Quantity | None = None
     a_over_rstar: float | None = None
     eccentricity: float | None = 0.0
+    eccentricity_limit: float | None = None
     omega: u.Quantity | None = None
     inclination: u.Quantity | None = None
     _section: str = field(default="orbit", repr=False)

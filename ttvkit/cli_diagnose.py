@@ -1,0 +1,112 @@
+"""The ``diagnose`` sub-command of ``ttvkit``."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+__all__ = ["add_commands", "run_diagnosis"]
+
+_EPILOG = """\
+examples:
+  ttvkit diagnose times.ecsv --system star.toml --out diagnosis
+  ttvkit diagnose compiled.csv --system star.toml --out diagnosis --relabel "Old survey=BJD_UTC"
+  ttvkit diagnose times.ecsv --system star.toml --out quick --no-sample --json
+
+Writes DIR/report.html (self-contained), the figures as PNG and PDF,
+DIR/diagnosis.json and DIR/timings_bjd_tdb.ecsv.  The verdict is a
+plausibility screen, not a proof.  The target's coordinates come from the
+table, from --ra/--dec, or from the system file's [star] ra and dec.
+"""
+
+
+def add_commands(sub) -> None:
+    """Register ``diagnose``."""
+    from .cli import _add_table_options
+
+    p = sub.add_parser("diagnose", help="what drives the timing drift? fit, test against physics, report",
+                       description="Fit every timing hypothesis, test each against the physics of the "
+                                   "star and planet, forecast when new data separate the survivors and "
+                                   "write a report.", epilog=_EPILOG,
+                       formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("table", help="timing table (ECSV written by ttvkit, or CSV with --standard)")
+    p.add_argument("--system", required=True, help="system file (TOML, values with units)")
+    p.add_argument("--out", required=True, metavar="DIR", help="report folder (new or empty)")
+    p.add_argument("--force", action="store_true", help="replace a non-empty DIR")
+    p.add_argument("--relabel", action="append", default=[], metavar="SOURCE=STANDARD",
+                   help="re-read one source's times in another standard (repeatable)")
+    p.add_argument("--exclude-source", action="append", default=[], metavar="SOURCE",
+                   help="leave a source out (repeatable)")
+    p.add_argument("--no-sample", action="store_true", help="skip posterior sampling (faster)")
+    p.add_argument("--steps", type=int, default=3000, help="sampler steps per walker (default 3000)")
+    p.add_argument("--seed", type=int, default=0, help="sampler seed (default 0)")
+    p.add_argument("--years", type=float, default=10.0, help="forecast horizon in years (default 10)")
+    p.add_argument("--precision", type=float, help="future timing precision in seconds "
+                                                   "(default: median of the recent uncertainties)")
+    p.add_argument("--robust", action="store_true", help="Student-t likelihood (outliers cost little)")
+    p.add_argument("--jitter", action="store_true", help="fit an extra white timing noise")
+    p.add_argument("--no-progress", action="store_true", help="no progress bars")
+    p.add_argument("--json", action="store_true", help="print diagnosis.json's content on stdout")
+    _add_table_options(p)
+    p.set_defaults(func=_cmd_diagnose)
+
+
+def run_diagnosis(table, system, out, force=False, relabel=(), exclude=(), sampled=True, n_steps=3000,
+                  seed=0, years=10.0, precision=None, likelihood=None, progress=True, say=print):
+    """Relabel/exclude sources as asked, diagnose, write the report; returns (diagnosis, notes, paths)."""
+    from ._outdir import check_folder
+    from .diagnose import diagnose
+    from .errors import InputError
+    from .report import write_report
+
+    check_folder(out, force)
+    notes = []
+    for item in relabel:
+        if "=" not in item:
+            raise InputError(f"--relabel {item!r} must be SOURCE=STANDARD")
+        source, standard = (x.strip() for x in item.rsplit("=", 1))
+        table = table.relabel_source(source, standard)
+        notes.append(f"source {source!r} was re-read as {standard} at the user's request")
+    for source in exclude:
+        if source not in table.sources:
+            raise InputError(f"--exclude-source {source!r}: no such source; sources: {', '.join(table.sources)}")
+        table = table.subset(table.source != source)
+        notes.append(f"source {source!r} was left out at the user's request")
+    say(f"diagnose: {len(table)} mid-times, {len(table.sources)} sources; fitting "
+        f"{'and sampling ' if sampled else ''}every hypothesis")
+    diagnosis = diagnose(table, system, sampled=sampled, n_steps=n_steps, seed=seed, progress=progress,
+                         forecast_years=years, timing_precision_s=precision, likelihood=likelihood)
+    paths = write_report(diagnosis, out, force=force, notes=notes)
+    return diagnosis, notes, paths
+
+
+def _cmd_diagnose(args) -> int:
+    from .cli import parse_target, read_table_from_args
+    from .errors import InputError
+    from .likelihood import Likelihood
+    from .physics import System
+    from .timescales import make_target
+
+    system = System.from_toml(args.system)
+    if parse_target(args) is None and system.star.ra is not None and system.star.dec is not None:
+        args.ra, args.dec = str(system.star.ra.to_value("deg")), str(system.star.dec.to_value("deg"))
+    table = read_table_from_args(args)
+    if table.target is None and system.star.ra is not None and system.star.dec is not None:
+        table.target = make_target(system.star.ra.to_value("deg"), system.star.dec.to_value("deg"))
+    if args.steps < 100:
+        raise InputError("--steps must be at least 100")
+    say = (lambda *a: print(*a, file=sys.stderr)) if args.json else print
+    like = Likelihood("student-t" if args.robust else "gaussian", jitter=args.jitter)
+    diagnosis, notes, paths = run_diagnosis(
+        table, system, args.out, args.force, args.relabel, args.exclude_source, not args.no_sample,
+        args.steps, args.seed, args.years, args.precision, like, not args.no_progress and not args.json, say)
+    if args.json:
+        print((paths["diagnosis.json"]).read_text())
+        return 0
+    print(f"verdict: {diagnosis.summary()}")
+    for a in diagnosis.assessments:
+        print(f"  {a.name:40s} ΔBIC {a.delta_bic:7.1f}  {a.verdict}")
+    print(f"report: {paths['report.html']}")
+    print("(a plausibility screen, not a proof)")
+    return 0

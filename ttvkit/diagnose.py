@@ -1,0 +1,308 @@
+"""The diagnosis: which explanations of a timing drift survive the data and the physics.
+
+:func:`diagnose` fits every hypothesis (and the sensible pairs), joins each
+fit with the physical checks of :mod:`ttvkit.checks`, gives each a
+statistical standing from ΔBIC (Kass & Raftery 1995, JASA 90, 773: 0–2 not
+worth more than a mention, 2–6 positive, 6–10 strong, > 10 very strong
+evidence against) and a physical standing, and says in words what remains.
+This is the only module that joins fits and physics.
+
+It is a **plausibility screen, not a proof**: a hypothesis that "stands"
+fits the data about as well as the best and passes every test the system
+file allows; it is not thereby the cause.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import astropy.units as u
+import numpy as np
+
+from .checks import checks_for
+from .errors import MissingValueError
+from .forecast import Forecast, make_forecast
+from .hypotheses import DEFAULT_COMPARISON, TimingData
+from .inference import compare
+from .periodogram import Periodogram, residual_periodogram
+
+__all__ = ["Assessment", "Diagnosis", "diagnose", "CAUTION"]
+
+CAUTION = ("This verdict is a plausibility screen, not a proof. A hypothesis that stands fits the timings "
+           "about as well as the best one and passes every physical test the system file allows; it is "
+           "not thereby shown to be the cause, and the physical models are idealised (their assumptions "
+           "are listed below).")
+
+#: ΔBIC above which the data are taken to reject a hypothesis (Kass & Raftery 1995: very strong).
+REJECT_DELTA_BIC = 10.0
+
+
+def statistical_standing(delta_bic: float) -> str:
+    """Words for a ΔBIC (Kass & Raftery 1995)."""
+    if delta_bic <= 2:
+        return "best or as good as the best"
+    if delta_bic <= 6:
+        return "positive evidence against"
+    if delta_bic <= 10:
+        return "strong evidence against"
+    return "very strong evidence against"
+
+
+@dataclass
+class Assessment:
+    """One hypothesis: its fit, its physical checks and the verdict."""
+
+    name: str
+    fit: object
+    delta_bic: float
+    statistical: str
+    checks: list
+    physical: str
+    verdict: str
+    reason: str
+
+    @property
+    def stands(self) -> bool:
+        """True when neither the data nor the physics reject it."""
+        return self.verdict.startswith("stands")
+
+    def to_dict(self) -> dict:
+        """Plain-JSON form."""
+        d = self.fit.to_dict()
+        return {"name": self.name, "delta_bic": self.delta_bic, "statistical": self.statistical,
+                "parameters": d["parameters"], "derived": d["derived"], "chi2": d["chi2"], "dof": d["dof"],
+                "bic": d["bic"], "aic": d["aic"], "n_points": d["n_points"], "sampled": d["sampled"],
+                "physical": {"standing": self.physical, "checks": [c.to_dict() for c in self.checks]},
+                "verdict": self.verdict, "reason": self.reason, "assumptions": d["assumptions"]}
+
+
+@dataclass
+class Diagnosis:
+    """Everything the report shows, computed once."""
+
+    table: object
+    system: object
+    assessments: list
+    periodogram: Periodogram
+    forecast: Forecast | None
+    suspicions: list
+    warnings: list
+    curves: dict = field(default_factory=dict)
+    settings: dict = field(default_factory=dict)
+
+    @property
+    def standing(self) -> list:
+        """Assessments that stand, best BIC first."""
+        return [a for a in self.assessments if a.stands]
+
+    def __getitem__(self, name: str) -> Assessment:
+        for a in self.assessments:
+            if a.name == name:
+                return a
+        raise KeyError(name)
+
+    def summary(self) -> str:
+        """The verdict in a few sentences."""
+        stand = [a.name for a in self.standing if a.name != "constant-period"]
+        out = []
+        if self["constant-period"].delta_bic > REJECT_DELTA_BIC:
+            out.append(f"The mid-times drift from a constant period (ΔBIC = {self['constant-period'].delta_bic:.1f}).")
+        else:
+            out.append("A constant period still describes the mid-times about as well as any alternative.")
+        if stand:
+            out.append("Still standing: " + ", ".join(stand) + ".")
+        excluded = [a.name for a in self.assessments if a.physical == "excluded"]
+        if excluded:
+            out.append("Excluded by physics: " + ", ".join(excluded) + ".")
+        modulation = [a for a in self.assessments if a.name == "sinusoidal-modulation"]
+        if modulation:
+            m = modulation[0]
+            verdict = "cannot" if m.physical == "excluded" else "could" if m.physical == "possible" else "may or may not"
+            out.append(f"The star {verdict} power the modulation through its activity cycle.")
+        return " ".join(out)
+
+    def to_dict(self) -> dict:
+        """The ``diagnosis.json`` content (see ``ttvkit/schemas/diagnosis.schema.json``)."""
+        from ._version import __version__
+
+        return {
+            "ttvkit_version": __version__,
+            "system": self.system.to_dict(),
+            "n_points": len(self.table),
+            "sources": self.table.sources,
+            "summary": self.summary(),
+            "caution": CAUTION,
+            "hypotheses": [a.to_dict() for a in self.assessments],
+            "periodogram": self.periodogram.to_dict(),
+            "forecast": self.forecast.to_dict() if self.forecast is not None else None,
+            "warnings": list(self.warnings),
+            "settings": self.settings,
+        }
+
+
+def _context(system) -> dict:
+    mass = system.star.mass
+    if mass is None:
+        return {}
+    total = mass + (system.companion.mass if system.companion.mass is not None else 0 * u.Msun)
+    return {"host_mass_msun": float(total.to_value(u.Msun))}
+
+
+def _assess(fit, delta_bic, system) -> Assessment:
+    d = fit.to_dict()
+    checks = checks_for(fit.hypothesis, d["parameters"], d["derived"], system)
+    decisive = [c for c in checks if c.decisive]
+    fails = [c for c in decisive if c.outcome == "fail"]
+    passes = [c for c in decisive if c.outcome == "pass"]
+    physical = "excluded" if fails else "possible" if passes or not decisive else "untested"
+    stat = statistical_standing(delta_bic)
+    if fails:
+        verdict, reason = "excluded by physics", fails[0].reason
+    elif delta_bic > REJECT_DELTA_BIC:
+        verdict, reason = "disfavoured by the data", f"ΔBIC = {delta_bic:.1f} ({stat})"
+    elif physical == "untested":
+        missing = "; ".join(c.reason for c in decisive if c.outcome == "untested")
+        verdict, reason = "stands, physically untested", missing
+    else:
+        verdict = "stands"
+        reason = f"ΔBIC = {delta_bic:.1f} ({stat}); " + ("; ".join(c.reason for c in passes) or "no physical objection")
+    return Assessment(fit.name, fit, float(delta_bic), stat, checks, physical, verdict, reason)
+
+
+def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True, n_steps: int = 3000,
+             seed: int = 0, progress: bool = True, forecast_years: float = 10.0,
+             timing_precision_s: float | None = None, likelihood=None, executor=None,
+             now: float | None = None, max_steps: int | None = 6000) -> Diagnosis:
+    """Fit every hypothesis and judge each against the data and the physics.
+
+    Parameters
+    ----------
+    table : TimingTable
+        Mid-times in BJD_TDB.
+    system : System
+        The star, companion, orbit and RV limits.
+    hypotheses : sequence of str
+        Default: every hypothesis and the pairs decay + modulation and
+        decay + light-travel time.
+    sampled : bool
+        Sample each posterior with emcee (bands, uncertainties); otherwise the
+        Gaussian approximation at the optimum is used.
+    n_steps, seed, progress
+        Sampler settings.
+    forecast_years : float
+        How far the forecast looks.
+    timing_precision_s : float, optional
+        Precision of a future mid-time; default the median of the recent
+        uncertainties.
+    likelihood : Likelihood, optional
+    executor : object with ``map``, optional
+        Runs the hypotheses concurrently.
+    now : float, optional
+        BJD_TDB the forecast starts from (default: the present).
+    max_steps : int, optional
+        Chains shorter than 50 autocorrelation times are extended up to this.
+
+    Returns
+    -------
+    Diagnosis
+    """
+    import warnings
+
+    from .inference import ConvergenceWarning
+
+    notes = []
+    suspicions = table.check_standards()
+    for s in suspicions:
+        notes.append({"kind": "time standard", "message": s.message()})
+    data = TimingData.from_table(table, _context(system))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", ConvergenceWarning)
+        comparison = compare(data, hypotheses, likelihood, sampled=sampled, n_steps=n_steps, seed=seed,
+                             progress=progress, executor=executor, max_steps=max_steps)
+    for w in caught:
+        if issubclass(w.category, ConvergenceWarning):
+            notes.append({"kind": "convergence", "message": str(w.message)})
+    for f in comparison.fits:
+        for msg in f.warnings:
+            if {"kind": "convergence", "message": msg} not in notes:
+                notes.append({"kind": "convergence", "message": msg})
+    ref = comparison["constant-period"]
+    outliers = np.flatnonzero(np.abs(ref.residuals() / data.sigma) > 5)
+    if outliers.size:
+        notes.append({"kind": "outliers", "message": f"{outliers.size} mid-time(s) sit more than 5σ from the "
+                      "constant-period fit; consider a robust likelihood (--robust)"})
+    assessments = [_assess(f, comparison.delta_bic(f), system) for f in comparison.fits]
+    standing = [a.fit for a in assessments if a.stands]
+    duration = None
+    try:
+        from .physics.geometry import transit_durations
+
+        duration = float(transit_durations(system)[0].to_value(u.h))
+    except MissingValueError:
+        pass
+    forecast = make_forecast(standing or [comparison.best], ref, table, forecast_years, timing_precision_s,
+                             duration, table.target, now=now)
+    diagnosis = Diagnosis(table, system, assessments, residual_periodogram(data), forecast, suspicions, notes,
+                          settings={"sampled": sampled, "n_steps": n_steps, "seed": seed,
+                                    "forecast_years": forecast_years,
+                                    "likelihood": (likelihood.describe() if likelihood else "Gaussian")})
+    diagnosis.curves = _curves(diagnosis)
+    return diagnosis
+
+
+def _year(bjd):
+    from astropy.time import Time
+
+    return Time(np.asarray(bjd, float), format="jd", scale="tdb").decimalyear
+
+
+def _curves(diagnosis: Diagnosis) -> dict:
+    """Arrays the figures draw (the figures compute nothing)."""
+    from .forecast import _bands, _future_data
+    from .physics import activity_envelope
+
+    system, table = diagnosis.system, diagnosis.table
+    ref = diagnosis["constant-period"].fit
+    data = ref.data
+    out = {"point_year": _year(table.time), "point_source": table.source, "point_kind": table.kind,
+           "point_oc_s": ref.residuals() * 86400, "point_sigma_s": table.uncertainty * 86400}
+    lead = (diagnosis.standing or diagnosis.assessments)[0]
+    out["lead"] = lead.name
+    out["point_residual_s"] = lead.fit.residuals() * 86400
+    grid = np.linspace(table.epoch.min(), table.epoch.max(), 600)
+    gdata = _future_data(data, grid)
+    ref_line = ref.hypothesis.predict(ref.model_theta(), gdata)
+    out["model_year"] = _year(ref_line + data.t_ref)
+    out["models"] = {}
+    shown = [a for a in diagnosis.assessments if a.stands] or [lead]
+    for a in shown[:4]:
+        med, lo, hi = _bands(a.fit, gdata)
+        out["models"][a.name] = ((med - ref_line) * 86400, (lo - ref_line) * 86400, (hi - ref_line) * 86400)
+    span_yr = max(np.ptp(table.time) / 365.25, 1.0)
+    periods = np.geomspace(0.5, 10 * span_yr, 60) * u.yr
+    try:
+        out["envelope_thin_s"] = activity_envelope(system, periods, "thin shell").value
+        out["envelope_finite_s"] = activity_envelope(system, periods, "finite shell").value
+        out["envelope_period_yr"] = periods.value
+    except MissingValueError:
+        pass
+    for a in diagnosis.assessments:
+        if a.name == "sinusoidal-modulation":
+            d = a.fit.derived_table()
+            out["signal"] = {k: d[k] for k in ("semi_amplitude", "modulation_period_yr")}
+            out["signal_verdict"] = a.verdict
+    rv = system.radial_velocity
+    if rv.scatter is not None and rv.baseline is not None:
+        p = np.geomspace(1 / 365.25, 30 * span_yr, 120) * u.yr
+        phase = np.minimum(np.pi * (rv.baseline / p).decompose().value, np.pi / 2)
+        out["rv_limit_period_yr"] = p.value
+        out["rv_limit_K"] = (3 * rv.scatter.to_value(u.m / u.s)) / (2 * np.sin(phase))
+    out["rv_points"] = {}
+    for a in diagnosis.assessments:
+        for c in a.checks:
+            if c.name == "radial-velocity visibility" and c.value is not None:
+                params = a.fit.parameter_table()
+                key = "companion_period" if "companion_period" in params else "perturber_period"
+                if key in params and a.name not in out["rv_points"]:
+                    out["rv_points"][a.name] = (params[key]["value"] / 365.25, c.value, c.outcome)
+    return out

@@ -1,0 +1,219 @@
+"""The report of a diagnosis: one self-contained HTML page, the figures, the JSON.
+
+:func:`write_report` writes into a folder that appears whole or not at all
+(built under a temporary name, renamed at the end): ``report.html`` (figures
+embedded as data URIs, no network needed to open it), each figure as PNG
+(300 dpi) and PDF, ``diagnosis.json`` and the BJD_TDB timing table used.
+The page leads with the verdict table, then the figures, the forecast, the
+checks of each hypothesis, the assumptions of each physical model and the
+caution that the verdict is a plausibility screen, not a proof.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import io
+import json
+from pathlib import Path
+
+from ._outdir import staged_folder
+from .diagnose import CAUTION
+
+__all__ = ["write_report", "render_html", "MODEL_ASSUMPTIONS"]
+
+#: The assumptions of each physical model, as the report states them.
+MODEL_ASSUMPTIONS = {
+    "Activity cycle (Applegate 1992)": (
+        "An activity cycle moves angular momentum between the star's interior and an outer shell; the "
+        "shell's changed spin changes the star's quadrupole moment and so the orbital period. Core and "
+        "shell rotate rigidly; the quadrupole follows the shell's spin at once; the modulation is "
+        "sinusoidal; the whole luminosity is available over one cycle; the initial differential rotation "
+        "equals its change. The spin is the star's own when its rotation period is known, synchronous "
+        "otherwise. Thin shell: 0.1 M at the surface. Finite shell (in the manner of Völschow et al. 2016): "
+        "a Lane–Emden polytrope (n = 1.5 below 0.5 M☉, else 3) with the energy minimised over the shell "
+        "thickness."),
+    "Tidal decay (Goldreich & Soter 1966; Patra et al. 2017)": (
+        "Constant-phase-lag tide raised on the star by a planet on a circular orbit; Q'_* constant; the "
+        "planet's own tide neglected. Plausible Q'_* ranges by star type are a documented table, recalled "
+        "from the cited studies."),
+    "Apsidal precession (Giménez & Bastero 1995)": (
+        "A slightly eccentric orbit to first order in e; a constant precession rate; the rate expected from "
+        "general relativity and the tidal bulges (Ragozzine & Wolf 2009) with Love numbers k2 = 0.6 "
+        "(planet) and 0.03 (star), uncertain by a factor of a few."),
+    "Distant companion (Irwin 1952)": (
+        "A Keplerian outer orbit of a point-mass pair; the light-travel time shifts all events alike. The "
+        "companion would already have been seen if its RV change over the baseline exceeds 3× the RV "
+        "scatter (common practice, no source)."),
+    "Near-resonant perturber (Lithwick, Xie & Wu 2012)": (
+        "Coplanar, nearly circular orbits near (not in) a first-order resonance; the quoted mass assumes "
+        "zero free eccentricity (a free eccentricity trades against the mass). Hill stability after "
+        "Gladman (1993) for circular orbits."),
+}
+
+_CSS = """
+body{font-family:Georgia,serif;max-width:60rem;margin:2rem auto;padding:0 1rem;color:#111;line-height:1.45}
+h1{font-size:1.5rem}h2{font-size:1.2rem;border-bottom:1px solid #ccc;margin-top:2rem}
+table{border-collapse:collapse;width:100%;font-size:.85rem;margin:.5rem 0}
+th,td{border:1px solid #ccc;padding:.25rem .4rem;text-align:left;vertical-align:top}
+th{background:#f0f0f0}.stands{background:#e8f4ea}.excluded{background:#fbeaea}.disfavoured{background:#f4f4f4}
+.caution{border-left:4px solid #D55E00;padding:.5rem 1rem;background:#fff6ef}
+figure{margin:1rem 0}figure img{width:100%;height:auto;border:1px solid #eee}figcaption{font-size:.85rem;color:#333}
+code{font-size:.85rem}
+"""
+
+_CAPTIONS = {
+    "oc_diagram": "O − C against the constant-period fit, by source, with the hypotheses still standing "
+                  "(1σ bands) and the residuals from the leading one.",
+    "periodogram": "Lomb–Scargle periodogram of the constant-period residuals with false-alarm levels "
+                   "(Baluev 2008).",
+    "activity_envelope": "The largest O − C semi-amplitude the star can power (energy ratio 1) in the thin- "
+                         "and finite-shell Applegate models, and the observed modulation.",
+    "companion_check": "RV semi-amplitude each companion hypothesis implies, against what the system's RVs "
+                       "would already have shown.",
+    "forecast": "Predicted O − C of the standing hypotheses; dotted lines mark where two part by 3σ.",
+    "posterior_corner": "Posterior of the leading hypothesis (or its Gaussian approximation when not sampled).",
+}
+
+
+def _png_data_uri(fig) -> str:
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=150)
+    return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
+
+
+def _e(text) -> str:
+    return html.escape(str(text))
+
+
+def _fmt(v) -> str:
+    if v is None:
+        return "—"
+    if isinstance(v, float):
+        return f"{v:.4g}"
+    return _e(v)
+
+
+def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
+    """The report page as one HTML string with the figures embedded."""
+    d = diagnosis
+    rows = []
+    for a in d.assessments:
+        cls = "stands" if a.stands else "excluded" if a.physical == "excluded" else "disfavoured"
+        rows.append(f"<tr class='{cls}'><td><code>{_e(a.name)}</code></td><td>{a.delta_bic:.1f}</td>"
+                    f"<td>{_e(a.statistical)}</td><td>{_e(a.physical)}</td><td><b>{_e(a.verdict)}</b></td>"
+                    f"<td>{_e(a.reason)}</td></tr>")
+    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'><title>ttvkit diagnosis: "
+             f"{_e(d.system.name)}</title><style>{_CSS}</style></head><body>",
+             f"<h1>Timing diagnosis: {_e(d.system.name)}</h1>",
+             f"<p>{len(d.table)} mid-times from {len(d.table.sources)} sources, all in BJD_TDB.</p>",
+             "<h2>Verdict</h2>", f"<p>{_e(d.summary())}</p>",
+             "<table><tr><th>hypothesis</th><th>ΔBIC</th><th>statistical standing</th><th>physical standing</th>"
+             "<th>verdict</th><th>reason</th></tr>" + "".join(rows) + "</table>",
+             f"<p class='caution'>{_e(CAUTION)}</p>"]
+    if d.warnings or notes:
+        parts.append("<h2>Warnings</h2><ul>" + "".join(f"<li>{_e(w['kind'])}: {_e(w['message'])}</li>"
+                                                       for w in d.warnings) +
+                     "".join(f"<li>{_e(n)}</li>" for n in (notes or [])) + "</ul>")
+    parts.append("<h2>Figures</h2>")
+    for name, fig in figures.items():
+        parts.append(f"<figure><img alt='{_e(name)}' src='{_png_data_uri(fig)}'><figcaption><b>{_e(name)}</b>: "
+                     f"{_e(_CAPTIONS.get(name, ''))} (PNG and PDF files beside this page.)</figcaption></figure>")
+    f = d.forecast
+    if f is not None:
+        parts.append(f"<h2>Forecast</h2><p>Future timing precision assumed: {f.precision_s:.0f} s.</p>")
+        if f.pairs:
+            parts.append("<table><tr><th>hypotheses</th><th>first 3σ separation (UTC)</th><th>epoch</th>"
+                         "<th>epochs worth observing</th><th>largest separation</th></tr>")
+            for p in f.pairs:
+                parts.append(f"<tr><td>{_e(' vs '.join(p['hypotheses']))}</td><td>{_fmt(p['first_date_utc'])}</td>"
+                             f"<td>{_fmt(p['first_epoch'])}</td><td>{_e(', '.join(map(str, p['epochs_worth_observing'])) or 'none within the window')}</td>"
+                             f"<td>{p['largest_separation_s']:.1f} s ({p['largest_separation_sigma']:.1f}σ)</td></tr>")
+            parts.append("</table>")
+        else:
+            parts.append("<p>Only one hypothesis stands; nothing to separate.</p>")
+        parts.append("<h3>Next transits</h3><table><tr><th>epoch</th><th>start (UTC)</th><th>mid (UTC)</th>"
+                     "<th>end (UTC)</th><th>mid (BJD_TDB)</th><th>±1σ (s)</th></tr>")
+        for w in f.windows:
+            parts.append(f"<tr><td>{w['epoch']}</td><td>{_fmt(w['start_utc'])}</td><td>{_fmt(w['mid_utc'])}</td>"
+                         f"<td>{_fmt(w['end_utc'])}</td><td>{w['mid_bjd_tdb']:.5f}</td><td>{w['uncertainty_s']:.0f}</td></tr>")
+        parts.append(f"</table><p>Predicted by <code>{_e(f.windows[0]['hypothesis']) if f.windows else ''}</code>; "
+                     "UTC at the geocentre.</p>")
+    parts.append("<h2>Each hypothesis</h2>")
+    for a in d.assessments:
+        table = a.fit.to_dict()
+        parts.append(f"<h3><code>{_e(a.name)}</code>: {_e(a.verdict)}</h3>"
+                     f"<p>χ² = {table['chi2']:.1f} for {table['dof']} degrees of freedom; BIC {table['bic']:.1f}; "
+                     f"{_e(table['likelihood'])}{'; sampled with emcee' if table['sampled'] else ''}.</p>")
+        parts.append("<table><tr><th>quantity</th><th>value</th><th>−1σ</th><th>+1σ</th><th>unit</th></tr>")
+        for section in ("parameters", "derived"):
+            for k, v in table[section].items():
+                parts.append(f"<tr><td>{_e(k)}</td><td>{v['value']:.8g}</td><td>{v['lower']:.3g}</td>"
+                             f"<td>{v['upper']:.3g}</td><td>{_e(v['unit'])}</td></tr>")
+        parts.append("</table>")
+        if a.checks:
+            parts.append("<table><tr><th>check</th><th>value</th><th>limit</th><th>outcome</th><th>why</th></tr>")
+            for c in a.checks:
+                parts.append(f"<tr><td>{_e(c.name)}</td><td>{_fmt(c.value)}</td><td>{_fmt(c.limit)}</td>"
+                             f"<td>{_e(c.outcome)}</td><td>{_e(c.reason)}</td></tr>")
+            parts.append("</table>")
+    parts.append("<h2>Assumptions of the physical models</h2><dl>")
+    for k, v in MODEL_ASSUMPTIONS.items():
+        parts.append(f"<dt><b>{_e(k)}</b></dt><dd>{_e(v)}</dd>")
+    parts.append("</dl>")
+    parts.append(f"<p class='caution'>{_e(CAUTION)}</p>")
+    parts.append("<p><small>Made by ttvkit. Figures, <code>diagnosis.json</code> and the BJD_TDB table "
+                 "<code>timings_bjd_tdb.ecsv</code> are beside this page.</small></p>")
+    parts.append("<script>window.addEventListener('load',function(){var im=Array.prototype.slice.call("
+                 "document.images);document.body.setAttribute('data-figures-loaded',im.filter(function(i)"
+                 "{return i.complete&&i.naturalWidth>0;}).length+'/'+im.length);});</script></body></html>")
+    return "\n".join(parts)
+
+
+def write_report(diagnosis, out: "str | Path", force: bool = False, notes: list | None = None) -> dict:
+    """Write the report folder; returns name → path of what was written.
+
+    Parameters
+    ----------
+    diagnosis : Diagnosis
+    out : str or Path
+        Folder; must be new or empty unless ``force``.
+    force : bool
+        Replace a non-empty folder.
+    notes : list of str, optional
+        Extra lines for the warnings section (e.g. a relabelled source).
+    """
+    from .plots import all_figures, save_figure
+
+    out = Path(out)
+    figures = all_figures(diagnosis)
+    written = {}
+    with staged_folder(out, force) as stage:
+        for name, fig in figures.items():
+            for p in save_figure(fig, stage / name):
+                written[p.name] = out / p.name
+        payload = diagnosis.to_dict()
+        if notes:
+            payload["warnings"] = payload["warnings"] + [{"kind": "note", "message": n} for n in notes]
+        (stage / "diagnosis.json").write_text(json.dumps(payload, indent=2, default=_json_default) + "\n")
+        diagnosis.table.write(stage / "timings_bjd_tdb.ecsv")
+        (stage / "report.html").write_text(render_html(diagnosis, figures, notes), encoding="utf-8")
+        for name in ("diagnosis.json", "timings_bjd_tdb.ecsv", "report.html"):
+            written[name] = out / name
+    import matplotlib.pyplot as plt
+
+    for fig in figures.values():
+        plt.close(fig)
+    return written
+
+
+def _json_default(value):
+    import numpy as np
+
+    if isinstance(value, (np.floating, np.integer)):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    if isinstance(value, np.bool_):
+        return bool(value)
+    raise TypeError(f"not JSON serialisable: {type(value).__name__}")

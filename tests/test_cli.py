@@ -20,7 +20,7 @@ def test_version_and_help(capsys):
         main(["--version"])
     assert info.value.code == 0
     assert "ttvkit" in capsys.readouterr().out
-    for cmd in ("convert", "demo", "budget"):
+    for cmd in ("convert", "demo", "budget", "fit", "compare", "diagnose"):
         with pytest.raises(SystemExit):
             main([cmd, "--help"])
         assert "examples:" in capsys.readouterr().out
@@ -129,3 +129,26 @@ def test_budget_missing_system_value(tmp_path, capsys):
     p.write_text('[star]\nmass = "0.5 Msun"\nradius = "0.5 Rsun"\n[orbit]\nperiod = "1 d"\n')
     code, _, err = run(["budget", "--system", str(p), "--amplitude", "5s", "--modulation-period", "9yr"], capsys)
     assert code == 2 and "luminosity" in err
+
+
+def test_demo_runs_the_whole_path(tmp_path, capsys):
+    out = tmp_path / "demo"
+    code, stdout, _ = run(["demo", "--out", str(out), "--no-sample", "--json"], capsys)
+    assert code == 0
+    summary = json.loads(stdout)
+    assert (out / "diagnosis" / "report.html").exists()
+    assert (out / "diagnosis" / "diagnosis.json").exists()
+    assert [w["source"] for w in summary["warnings"]] == ["Meridian 1.2-m photometry"]
+    # the demo's star (slow rotator, quiet RVs) cannot host the activity or
+    # companion explanations of its modulation
+    assert summary["verdicts"]["sinusoidal-modulation"] == "excluded by physics"
+    assert summary["verdicts"]["light-travel-time"] == "excluded by physics"
+
+
+def test_diagnose_errors_are_one_line(tmp_path, demo_inputs, capsys):
+    base = ["diagnose", str(demo_inputs["timings"]), "--out", str(tmp_path / "r"), "--no-sample"]
+    code, _, err = run(base + ["--system", str(tmp_path / "none.toml")], capsys)
+    assert code == 2 and "no such file" in err and len(err.strip().splitlines()) == 1
+    code, _, err = run(base + ["--system", str(demo_inputs["system"]), "--relabel", "Nobody=BJD_UTC"], capsys)
+    assert code == 2 and "no source 'Nobody'" in err
+    assert not (tmp_path / "r").exists()

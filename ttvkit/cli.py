@@ -38,8 +38,10 @@ examples:
 
 The demo is an invented star (Orvessa) and planet (Orvessa b) with invented
 timings from six invented sources, one of them planted in the wrong time
-standard.  Its inputs are written to DIR/inputs so you can run every other
-command on them.
+standard.  It converts the timings to BJD_TDB, catches the planted source,
+re-reads it in the standard the check names, and writes the full diagnosis
+to DIR/diagnosis/report.html.  Its inputs are written to DIR/inputs so you
+can run every other command on them.
 """
 
 
@@ -107,6 +109,8 @@ def build_parser() -> argparse.ArgumentParser:
                        epilog=_EPILOG_DEMO, formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("--out", required=True, metavar="DIR", help="output folder (new or empty)")
     p.add_argument("--force", action="store_true", help="write into a non-empty DIR")
+    p.add_argument("--no-sample", action="store_true", help="skip posterior sampling (faster)")
+    p.add_argument("--progress", action="store_true", help="show the sampler's progress bars")
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     p.set_defaults(func=_cmd_demo)
 
@@ -200,7 +204,8 @@ def _cmd_convert(args) -> int:
 def _cmd_demo(args) -> int:
     from .demo_run import run_demo
 
-    result = run_demo(args.out, force=args.force, quiet=args.json)
+    result = run_demo(args.out, force=args.force, quiet=args.json, sampled=not args.no_sample,
+                      progress=args.progress)
     if args.json:
         print(json.dumps(result, indent=2))
     return 0

@@ -8,9 +8,11 @@ Nothing here is a real object.  The scenario:
 * **Orvessa b**, an invented hot Jupiter (1.9 M_Jup, 1.15 R_Jup) on a
   circular 1.8734-d orbit (a/R* ≈ 7.4).
 * The injected timing signal (``TRUTH`` below): a linear ephemeris plus a
-  sinusoidal O−C modulation of semi-amplitude 50 s and period 9.5 yr, of the
-  shape an activity cycle would cause.  White timing noise is drawn from a
-  fixed seed (``SEED``).
+  sinusoidal O−C modulation of semi-amplitude 50 s and period 9.5 yr.  Its
+  cause is left for the diagnosis to find: an activity cycle, a companion on
+  a circular orbit and a planet near a resonance all give this shape, and
+  only the physics of the invented star (a slow rotator, quiet RVs) tells
+  them apart.  White timing noise is drawn from a fixed seed (``SEED``).
 * Six invented sources from 2004 to 2025, in the standards such sources use:
   HJD_UTC for the early ground-based work, BJD_TDB and the mission day count
   BTJD for the recent data.  **One source is planted in the wrong

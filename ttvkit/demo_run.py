@@ -15,7 +15,8 @@ from .demo import PLANET_NAME, build_demo_scenario, target
 __all__ = ["run_demo"]
 
 
-def run_demo(out: "str | Path", force: bool = False, quiet: bool = False) -> dict:
+def run_demo(out: "str | Path", force: bool = False, quiet: bool = False, sampled: bool = True,
+             progress: bool = False) -> dict:
     """Build the demo inputs in ``out/inputs`` and run the pipeline on them.
 
     Parameters
@@ -26,6 +27,10 @@ def run_demo(out: "str | Path", force: bool = False, quiet: bool = False) -> dic
         Replace a non-empty ``out``.
     quiet : bool
         Print nothing (the caller prints the returned summary).
+    sampled : bool
+        Sample the posteriors in the diagnosis (slower, honest bands).
+    progress : bool
+        Show the sampler's progress bars.
 
     Returns
     -------
@@ -51,6 +56,24 @@ def run_demo(out: "str | Path", force: bool = False, quiet: bool = False) -> dic
         (stage / "standards_check.json").write_text(
             json.dumps([s.to_dict() for s in suspicions], indent=2) + "\n")
         summary["n_points"] = len(table)
+
+        # As a person would after checking the flagged paper: re-read the
+        # suspect source in the standard the check names, and say so.
+        from .cli_diagnose import run_diagnosis
+        from .physics import System
+
+        system = System.from_toml(paths["system"])
+        relabel = [f"{s.source}={s.likely_standard}" for s in suspicions]
+        for item in relabel:
+            say(f"demo: re-reading {item.split('=')[0]!r} as {item.split('=')[1]} for the diagnosis")
+        diagnosis, notes, report = run_diagnosis(table, system, stage / "diagnosis", relabel=relabel,
+                                                 sampled=sampled, progress=progress, say=say)
+        say(f"demo: verdict: {diagnosis.summary()}")
+        for a in diagnosis.assessments:
+            say(f"demo:   {a.name:40s} dBIC {a.delta_bic:6.1f}  {a.verdict}")
+        summary["verdicts"] = {a.name: a.verdict for a in diagnosis.assessments}
+        summary["summary"] = diagnosis.summary()
+        summary["report"] = str(out / "diagnosis" / "report.html")
         summary["files"] = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file())
-    say(f"demo: wrote {len(summary['files'])} files into {out}")
+    say(f"demo: wrote {len(summary['files'])} files into {out}; open {summary['report']}")
     return summary

@@ -210,6 +210,9 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
 
     from .inference import ConvergenceWarning
 
+    hypotheses = list(hypotheses)
+    if "constant-period" not in hypotheses:  # the reference of every O−C
+        hypotheses.insert(0, "constant-period")
     notes = []
     suspicions = table.check_standards()
     for s in suspicions:

@@ -133,7 +133,8 @@ def companion_figure(diagnosis) -> Figure:
         ax.set_xlabel("companion period (yr)")
         ax.set_ylabel("RV semi-amplitude of the host (m/s)")
         ax.set_title("would the companion have been seen?")
-        ax.legend(frameon=False, loc="lower right")
+        if ax.get_legend_handles_labels()[0]:
+            ax.legend(frameon=False, loc="lower right")
         values = [v[1] for v in c["rv_points"].values()] + list(c.get("rv_limit_K", []))
         if values:
             ax.set_ylim(max(min(values) / 10, 1e-3), max(values) * 10)
@@ -163,7 +164,8 @@ def forecast_figure(diagnosis) -> Figure:
         ax.set_xlabel("year (BJD_TDB)")
         ax.set_ylabel("predicted O − C (s)\nagainst a constant period")
         ax.set_title(f"forecast (future timing precision {f.precision_s:.0f} s)")
-        ax.legend(frameon=False, loc="best")
+        if ax.get_legend_handles_labels()[0]:
+            ax.legend(frameon=False, loc="best")
     return fig
 
 

@@ -127,8 +127,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     p.set_defaults(func=_cmd_budget)
 
-    from . import cli_diagnose, cli_fitting
+    from . import cli_diagnose, cli_fitting, cli_measure
 
+    cli_measure.add_commands(sub)
     cli_fitting.add_commands(sub)
     cli_diagnose.add_commands(sub)
     return parser

@@ -1,0 +1,350 @@
+"""A batched N-body transit-time engine: a Wisdom–Holman map in democratic heliocentric coordinates.
+
+The second-order symplectic map of Wisdom & Holman (1991, AJ 102, 1528) in
+Jacobi coordinates: each step is a half interaction kick, a Kepler drift of
+every Jacobi orbit (μ_i = G M_i, M_i the mass interior to and including
+body i) by Gauss's f and g functions, and a half kick.  The kick is the
+Jacobi-frame acceleration less its Kepler part, the way WHFast (Rein & Tamayo
+2015, MNRAS 452, 376) computes it.  (A democratic-heliocentric splitting was
+tried first: its star–planet splitting error left 1–8 s offsets against
+DOP853 at P/20, where Jacobi coordinates integrate a lone planet exactly.)  Everything is numpy over arrays shaped ``[system, planet, 3]``:
+one call integrates a whole batch of systems, with no Python loop over
+systems (the loop is over steps).
+
+Transits: after each step the sky-plane function g = x·vx + y·vy of each
+planet relative to the star (observer on +z) is checked for a sign change
+from − to + with the planet in front (z > 0); the time of minimum sky
+separation is refined by Newton's method on g, propagating the star–planet
+pair as a two-body orbit from the step's start, to 1e-10 d.  These are
+minimum-separation times, not batman's ``t0`` (which differs for eccentric
+orbits).  An optional light-travel-time correction adds the delay of the
+star's barycentric motion along the line of sight.
+
+Units: AU, days, solar masses.  Step: P_inner/100 by default (see
+``STEPS_PER_ORBIT``: without a symplectic corrector P/20 drifts by about a
+second per hundred orbits near resonance), and smaller for eccentric orbits
+so periapse is resolved: P_inner (1 − e)^{3/2}/100 (after Rauch & Holman
+1999, AJ 117, 1087).  :func:`reference_transit_times`
+integrates the same systems with scipy's DOP853 (rtol 1e-12) for the tests.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+
+__all__ = ["GAUSS_G", "elements_to_cartesian", "transit_times", "reference_transit_times", "default_step",
+           "energy", "STEPS_PER_ORBIT"]
+
+#: G in AU³ / (M☉ d²) (IAU k = 0.01720209895, k²).
+GAUSS_G = 0.01720209895 ** 2
+_C_AU_PER_DAY = 173.1446326742403
+
+
+def _check(masses, period, ecc):
+    masses = np.asarray(masses, float)
+    if masses.ndim != 2 or masses.shape[1] < 2:
+        raise InputError("masses must be shaped [system, body] with the star first")
+    if np.any(~np.isfinite(masses)) or np.any(masses[:, 0] <= 0) or np.any(masses[:, 1:] < 0):
+        raise InputError("masses must be finite, the star's positive and the planets' non-negative")
+    if np.any(~np.isfinite(period)) or np.any(np.asarray(period) <= 0):
+        raise InputError("orbital periods must be positive")
+    if np.any((np.asarray(ecc) < 0) | (np.asarray(ecc) >= 1)):
+        raise InputError("eccentricities must be in [0, 1): unbound orbits cannot be integrated")
+    p = np.asarray(period, float)
+    e = np.asarray(ecc, float)
+    a = p ** (2 / 3)
+    order = np.argsort(p, axis=1)
+    ps, es, as_ = (np.take_along_axis(x, order, axis=1) for x in (p, e, a))
+    if ps.shape[1] > 1 and np.any(as_[:, :-1] * (1 + es[:, :-1]) >= as_[:, 1:] * (1 - es[:, 1:])):
+        raise InputError("overlapping orbits: an inner apocentre reaches an outer pericentre")
+    return masses
+
+
+def elements_to_cartesian(mu, period, ecc, omega, inc, node, mean_anomaly):
+    """Heliocentric position and velocity (AU, AU/d) from elements (angles in radians).
+
+    Observer on +z; a transit (planet in front) happens at ω + f = π/2.
+    """
+    from .kepler import solve_kepler, true_anomaly
+
+    a = (mu * (period / (2 * np.pi)) ** 2) ** (1 / 3)
+    E = solve_kepler(np.mod(mean_anomaly, 2 * np.pi), ecc)
+    f = true_anomaly(E, ecc)
+    r = a * (1 - ecc * np.cos(E))
+    h = np.sqrt(mu * a * (1 - ecc ** 2))
+    cO, sO, ci, si = np.cos(node), np.sin(node), np.cos(inc), np.sin(inc)
+    u = omega + f
+    cu, su = np.cos(u), np.sin(u)
+    pos = np.stack([r * (cO * cu - sO * su * ci), r * (sO * cu + cO * su * ci), r * su * si], axis=-1)
+    vr = mu / h * ecc * np.sin(f)
+    vt = h / r
+    vel = np.stack([vr * (cO * cu - sO * su * ci) - vt * (cO * su + sO * cu * ci),
+                    vr * (sO * cu + cO * su * ci) - vt * (sO * su - cO * cu * ci),
+                    vr * su * si + vt * cu * si], axis=-1)
+    return pos, vel
+
+
+def _kepler_drift(pos, vel, mu, h):
+    """Advance two-body orbits by ``h`` with Gauss's f and g functions (elliptic orbits)."""
+    r0 = np.linalg.norm(pos, axis=-1)
+    v2 = np.einsum("...i,...i", vel, vel)
+    rv = np.einsum("...i,...i", pos, vel)
+    inv_a = 2.0 / r0 - v2 / mu
+    inv_a = np.where(inv_a > 0, inv_a, np.nan)   # an orbit became unbound: that system goes NaN
+    a = 1.0 / inv_a
+    n = np.sqrt(mu * inv_a ** 3)
+    c = 1.0 - r0 * inv_a                     # e cos E0
+    s = rv / np.sqrt(mu * a)                 # e sin E0
+    target = n * h
+    x = target + s * (1 - np.cos(target))    # a good start for small steps
+    for _ in range(30):  # Newton on x − c sin x + s (1 − cos x) − n h = 0 (Danby 1988, ch. 6)
+        sx, cx = np.sin(x), np.cos(x)
+        fun = x - c * sx + s * (1 - cx) - target
+        step = fun / (1 - c * cx + s * sx)
+        x = x - step
+        if not np.nanmax(np.abs(step), initial=0.0) >= 1e-14:
+            break
+    sx, cx = np.sin(x), np.cos(x)
+    f = 1 - a / r0 * (1 - cx)
+    g = h - (x - sx) / n
+    r = a + (r0 - a) * cx + rv * np.sqrt(a / mu) * sx
+    fdot = -np.sqrt(mu * a) / (r * r0) * sx
+    gdot = 1 - a / r * (1 - cx)
+    new_pos = f[..., None] * pos + g[..., None] * vel
+    new_vel = fdot[..., None] * pos + gdot[..., None] * vel
+    return new_pos, new_vel
+
+
+def _inertial_accel(x, m):
+    """Newtonian accelerations of all bodies, x [S, B, 3], m [S, B]."""
+    d = x[:, None, :, :] - x[:, :, None, :]          # d[s, i, j] = x_j − x_i
+    r3 = np.einsum("sijk,sijk->sij", d, d) ** 1.5
+    idx = np.arange(x.shape[1])
+    r3[:, idx, idx] = np.inf
+    return GAUSS_G * np.einsum("sj,sijk,sij->sik", m, d, 1.0 / r3)
+
+
+class _Jacobi:
+    """Jacobi coordinates of a batch (planets ordered inner to outer)."""
+
+    def __init__(self, m):
+        self.m = m                                    # [S, B], star first
+        self.cum = np.cumsum(m, axis=1)               # M_i = m_0 + ... + m_i
+        self.mu = GAUSS_G * self.cum[:, 1:]           # Kepler μ_i = G M_i (Wisdom & Holman 1991)
+
+    def to_jacobi(self, x):
+        com = np.cumsum(self.m[..., None] * x, axis=1) / self.cum[..., None]   # X_i
+        return x[:, 1:] - com[:, :-1]
+
+    def from_jacobi(self, r):
+        n = r.shape[1]
+        x = np.empty((r.shape[0], n + 1, 3))
+        com = np.zeros((r.shape[0], 3))                                       # X_N = 0
+        for i in range(n, 0, -1):
+            prev = com - (self.m[:, i] / self.cum[:, i])[:, None] * r[:, i - 1]
+            x[:, i] = prev + r[:, i - 1]
+            com = prev
+        x[:, 0] = com
+        return x
+
+    def accel_to_jacobi(self, a):
+        mean = np.cumsum(self.m[..., None] * a, axis=1) / self.cum[..., None]
+        return a[:, 1:] - mean[:, :-1]
+
+
+def _kick(jac, r, v, h):
+    """Interaction kick: Jacobi-frame accelerations less their Kepler part (as WHFast does)."""
+    a = jac.accel_to_jacobi(_inertial_accel(jac.from_jacobi(r), jac.m))
+    rn = np.linalg.norm(r, axis=-1)
+    a = a + jac.mu[..., None] * r / rn[..., None] ** 3
+    h = np.asarray(h)
+    return v + (h[..., None] if h.ndim else h) * a
+
+
+def _map_step(jac, r, v, h):
+    """One Wisdom–Holman kick–drift–kick step; ``h`` scalar or shaped [S, 1]."""
+    half = 0.5 * np.asarray(h)
+    v = _kick(jac, r, v, half)
+    r, v = _kepler_drift(r, v, jac.mu, h)
+    v = _kick(jac, r, v, half)
+    return r, v
+
+
+#: Steps per inner orbit.  P/20 (the usual choice) left a mean-motion error of
+#: ~1 s per 100 orbits near resonance against DOP853 without a symplectic
+#: corrector (measured); P/100 keeps 500 orbits within 1 s.
+STEPS_PER_ORBIT = 100
+
+
+def default_step(period, ecc) -> np.ndarray:
+    """P_inner (1 − e_max)^{3/2} / STEPS_PER_ORBIT per system (days)."""
+    p = np.asarray(period, float)
+    e = np.asarray(ecc, float)
+    return np.min(p, axis=1) * (1 - np.max(e, axis=1)) ** 1.5 / STEPS_PER_ORBIT
+
+
+def _setup(masses, period, ecc, omega, inc, node, mean_anomaly):
+    """Barycentric positions and velocities [S, B, 3] from heliocentric elements."""
+    ms = masses[:, :1]
+    mp = masses[:, 1:]
+    q, v = elements_to_cartesian(GAUSS_G * (ms + mp), period, ecc, omega, inc, node, mean_anomaly)
+    total = masses.sum(axis=1, keepdims=True)
+    x_star = -np.einsum("sn,snk->sk", mp, q) / total
+    v_star = -np.einsum("sn,snk->sk", mp, v) / total
+    x = np.concatenate([x_star[:, None], q + x_star[:, None]], axis=1)
+    u = np.concatenate([v_star[:, None], v + v_star[:, None]], axis=1)
+    return x, u
+
+
+def energy(x, u, masses) -> np.ndarray:
+    """Total energy of each system from barycentric positions and velocities."""
+    kin = 0.5 * np.einsum("sb,sbk,sbk->s", masses, u, u)
+    d = x[:, None] - x[:, :, None]
+    r = np.linalg.norm(d, axis=-1)
+    iu = np.triu_indices(masses.shape[1], 1)
+    pair = (masses[:, :, None] * masses[:, None, :])[:, iu[0], iu[1]]
+    return kin - GAUSS_G * np.sum(pair / r[:, iu[0], iu[1]], axis=1)
+
+
+def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: float, dt=None,
+                  light_time: bool = False, max_transits: int | None = None, return_state: bool = False):
+    """Transit (minimum sky-separation) times of every planet of every system.
+
+    Parameters
+    ----------
+    masses : array [S, N+1]
+        Star first (M☉).
+    period, ecc, omega, inc, node, mean_anomaly : arrays [S, N]
+        Heliocentric osculating elements at t = 0 (days, radians).
+    t_end : float
+        Integrate from 0 to ``t_end`` (days).
+    dt : float or array [S], optional
+        Step (default :func:`default_step`).  One common step is used: the
+        smallest of the batch.
+    light_time : bool
+        Add the light-travel time of the star's barycentric motion.
+    max_transits : int, optional
+        Size of the output's last axis.
+
+    Returns
+    -------
+    ndarray [S, N, K]
+        Transit times (days), NaN-padded; planets that never transit are all
+        NaN, and so is every planet of a system in which an orbit became
+        unbound (a close encounter).
+    """
+    masses = _check(masses, period, ecc)
+    els = [np.asarray(x, float) for x in (period, ecc, omega, inc, node, mean_anomaly)]
+    order = np.argsort(els[0], axis=1)                     # Jacobi: inner planet first
+    els = [np.take_along_axis(e, order, axis=1) for e in els]
+    masses = np.concatenate([masses[:, :1], np.take_along_axis(masses[:, 1:], order, axis=1)], axis=1)
+    x, u = _setup(masses, *els)
+    jac = _Jacobi(masses)
+    r, v = jac.to_jacobi(x), jac.to_jacobi(u)
+    mp = masses[:, 1:]
+    h = float(np.min(default_step(els[0], els[1]) if dt is None else np.atleast_1d(dt)))
+    steps = int(np.ceil(t_end / h))
+    k = max_transits or int(np.ceil(t_end / np.min(els[0]))) + 2
+    out = np.full(mp.shape + (k,), np.nan)
+    count = np.zeros(mp.shape, int)
+
+    def relative(r_, v_, j=None):
+        xb, ub = jac.from_jacobi(r_), jac.from_jacobi(v_)
+        return xb[:, 1:] - xb[:, :1], ub[:, 1:] - ub[:, :1], xb[:, 0]
+
+    # Leapfrog with the half kicks of consecutive steps merged: the state
+    # after each drift carries velocities half a kick behind, which is
+    # ample to detect a sign change of g; the refinement below restarts
+    # from a synchronised state.
+    q, qv, _ = relative(r, v)
+    g_old = q[..., 0] * qv[..., 0] + q[..., 1] * qv[..., 1]
+    v = _kick(jac, r, v, 0.5 * h)
+    for step in range(steps):
+        r0, v0 = r, v                                       # v0 is half a kick ahead of r0
+        r, v = _kepler_drift(r, v, jac.mu, h)
+        q, qv, _ = relative(r, v)
+        g_new = q[..., 0] * qv[..., 0] + q[..., 1] * qv[..., 1]
+        v = _kick(jac, r, v, h)
+        hit = (g_old < 0) & (g_new >= 0) & (q[..., 2] > 0)
+        if np.any(hit):
+            s_idx, n_idx = np.nonzero(hit)
+            # Newton on g(τ): the whole system is advanced from the step's
+            # start by one map step of length τ, so every pull is kept.
+            sub = _Jacobi(masses[s_idx])
+            rs = r0[s_idx]
+            vs = _kick(sub, rs, v0[s_idx], -0.5 * h)        # synchronise the step's start
+            rows = np.arange(s_idx.size)
+            mu_e = GAUSS_G * (masses[s_idx, 0] + mp[s_idx, n_idx])
+            tau = np.full(s_idx.size, 0.5 * h)
+            for _ in range(40):
+                rt, vt = _map_step(sub, rs, vs, tau[:, None])
+                xb, ub = sub.from_jacobi(rt), sub.from_jacobi(vt)
+                pos = xb[rows, n_idx + 1] - xb[rows, 0]
+                vel = ub[rows, n_idx + 1] - ub[rows, 0]
+                acc = -mu_e[:, None] * pos / (np.linalg.norm(pos, axis=-1) ** 3)[:, None]
+                g = pos[:, 0] * vel[:, 0] + pos[:, 1] * vel[:, 1]
+                dg = vel[:, 0] ** 2 + vel[:, 1] ** 2 + pos[:, 0] * acc[:, 0] + pos[:, 1] * acc[:, 1]
+                delta = g / dg
+                tau = np.clip(tau - delta, 0.0, h)
+                if not np.nanmax(np.abs(delta), initial=0.0) >= 1e-10:
+                    break
+            times = step * h + tau
+            if light_time:  # the star's barycentric z: light from it arrives later when z < 0
+                times = times - xb[rows, 0, 2] / _C_AU_PER_DAY
+            slot = count[s_idx, n_idx]
+            ok = slot < k
+            out[s_idx[ok], n_idx[ok], slot[ok]] = times[ok]
+            count[s_idx, n_idx] += 1
+        g_old = g_new
+    v = _kick(jac, r, v, -0.5 * h)                        # synchronise the final state
+    broken = ~np.all(np.isfinite(r), axis=(1, 2))   # went unbound: a close encounter or an ejection
+    out[broken] = np.nan
+    inverse = np.argsort(order, axis=1)
+    out = np.take_along_axis(out, inverse[..., None], axis=1)
+    if return_state:
+        return out, (jac.from_jacobi(r), jac.from_jacobi(v), masses, h * steps)
+    return out
+
+
+def reference_transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: float,
+                            rtol: float = 1e-12) -> list:
+    """The plain reference: each system integrated with scipy's DOP853 in barycentric coordinates.
+
+    Returns, per system, a list (per planet) of transit-time arrays.
+    """
+    from scipy.integrate import solve_ivp
+
+    masses = _check(masses, period, ecc)
+    xs, us = _setup(masses, *(np.asarray(x, float) for x in (period, ecc, omega, inc, node, mean_anomaly)))
+    results = []
+    for s in range(masses.shape[0]):
+        m = masses[s]
+        n = m.size
+        x, v = xs[s], us[s]
+
+        def rhs(t, y, m=m, n=n):
+            pos = y[: 3 * n].reshape(n, 3)
+            d = pos[None, :, :] - pos[:, None, :]
+            r3 = np.einsum("ijk,ijk->ij", d, d) ** 1.5
+            np.fill_diagonal(r3, np.inf)
+            acc = GAUSS_G * np.einsum("j,ijk,ij->ik", m, d, 1 / r3)
+            return np.concatenate([y[3 * n:], acc.ravel()])
+
+        events = []
+        for j in range(1, n):
+            def ev(t, y, j=j, n=n):
+                rel = y[3 * j:3 * j + 3] - y[:3]
+                vrel = y[3 * n + 3 * j:3 * n + 3 * j + 3] - y[3 * n:3 * n + 3]
+                return rel[0] * vrel[0] + rel[1] * vrel[1]
+            ev.direction = 1
+            events.append(ev)
+        sol = solve_ivp(rhs, (0, t_end), np.concatenate([x.ravel(), v.ravel()]), method="DOP853", rtol=rtol,
+                        atol=1e-14, events=events)
+        per = []
+        for j, (tj, yj) in enumerate(zip(sol.t_events, sol.y_events)):
+            front = (yj[:, 3 * (j + 1) + 2] - yj[:, 2]) > 0 if len(tj) else np.array([], bool)
+            per.append(np.asarray(tj)[front])
+        results.append(per)
+    return results

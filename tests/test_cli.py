@@ -152,3 +152,15 @@ def test_diagnose_errors_are_one_line(tmp_path, demo_inputs, capsys):
     code, _, err = run(base + ["--system", str(demo_inputs["system"]), "--relabel", "Nobody=BJD_UTC"], capsys)
     assert code == 2 and "no source 'Nobody'" in err
     assert not (tmp_path / "r").exists()
+
+
+def test_diagnose_with_light_curves(tmp_path, demo_inputs, capsys):
+    curves = sorted(str(p) for k, p in demo_inputs.items() if k.startswith("light_curve:"))
+    out = tmp_path / "d"
+    code, stdout, _ = run(["diagnose", str(demo_inputs["timings"]), "--system", str(demo_inputs["system"]),
+                           "--out", str(out), "--no-sample", "--json", "--relabel", "Meridian 1.2-m photometry=BJD_UTC",
+                           "--light-curves", *curves, "--ephemeris", "2456000.31412,1.8734192"], capsys)
+    assert code == 0
+    d = json.loads(stdout)
+    assert d["n_points"] == 99 + len(curves)  # every demo light curve holds one full transit
+    assert any(s.endswith(".csv") for s in d["sources"])

@@ -13,6 +13,7 @@ examples:
   ttvkit diagnose times.ecsv --system star.toml --out diagnosis
   ttvkit diagnose compiled.csv --system star.toml --out diagnosis --relabel "Old survey=BJD_UTC"
   ttvkit diagnose times.ecsv --system star.toml --out quick --no-sample --json
+  ttvkit diagnose times.ecsv --system star.toml --out d --light-curves lc1.csv lc2.csv --ephemeris T0,P
 
 Writes DIR/report.html (self-contained), the figures as PNG and PDF,
 DIR/diagnosis.json and DIR/timings_bjd_tdb.ecsv.  The verdict is a
@@ -34,6 +35,10 @@ def add_commands(sub) -> None:
     p.add_argument("--system", required=True, help="system file (TOML, values with units)")
     p.add_argument("--out", required=True, metavar="DIR", help="report folder (new or empty)")
     p.add_argument("--force", action="store_true", help="replace a non-empty DIR")
+    p.add_argument("--light-curves", nargs="+", default=[], metavar="LIGHTCURVE",
+                   help="also time these light curves (CSV/ECSV/FITS, BJD_TDB) and add their mid-times")
+    p.add_argument("--shape", metavar="SHAPE.toml",
+                   help="transit shape for --light-curves (default: fitted to the light curves)")
     p.add_argument("--relabel", action="append", default=[], metavar="SOURCE=STANDARD",
                    help="re-read one source's times in another standard (repeatable)")
     p.add_argument("--exclude-source", action="append", default=[], metavar="SOURCE",
@@ -96,6 +101,18 @@ def _cmd_diagnose(args) -> int:
         table.target = make_target(system.star.ra.to_value("deg"), system.star.dec.to_value("deg"))
     if args.steps < 100:
         raise InputError("--steps must be at least 100")
+    if args.light_curves:
+        from .measure import measure
+        from .midtime import shape_from_toml
+        from .timing import Ephemeris, TimingTable
+
+        ephemeris = Ephemeris.parse(args.ephemeris) if args.ephemeris else table.ephemeris
+        if ephemeris is None:
+            raise InputError("--light-curves needs --ephemeris T0,P (or a table that stores one)")
+        shape = shape_from_toml(args.shape) if args.shape else None
+        measured, _ = measure(args.light_curves, ephemeris, shape, shape is None, target=table.target,
+                              progress=not args.no_progress and not args.json)
+        table = TimingTable.concatenate([table, measured])
     say = (lambda *a: print(*a, file=sys.stderr)) if args.json else print
     like = Likelihood("student-t" if args.robust else "gaussian", jitter=args.jitter)
     diagnosis, notes, paths = run_diagnosis(

@@ -162,6 +162,7 @@ class WindowModel:
         self.flux_w = self.flux * self.weight
         self.basis_w = self.basis * self.weight[:, None]
         self._x = x if baseline_order == 1 else None
+        self._wb = np.vstack([self.weight, self.weight * x]) if baseline_order == 1 else None
         self.yy = float(self.flux_w @ self.flux_w)
         self.evaluations = 0
 
@@ -193,8 +194,16 @@ class WindowModel:
 
     def chi2(self, t0: float) -> float:
         """Profile χ²: the baseline solved by weighted linear least squares (normal equations)."""
-        coef, rhs = self._solve(self.light_curve(t0))
-        return self.yy - float(coef @ rhs)  # residual ⟂ design: χ² = yᵀy − cᵀAᵀy
+        m = self.light_curve(t0)
+        if self._wb is not None:  # linear baseline: one 2×n product, the 2×2 solve in closed form
+            a = m * self._wb
+            g = a @ a.T
+            r = a @ self.flux_w
+            det = g[0, 0] * g[1, 1] - g[0, 1] * g[0, 1]
+            explained = (g[1, 1] * r[0] * r[0] - 2 * g[0, 1] * r[0] * r[1] + g[0, 0] * r[1] * r[1]) / det
+            return self.yy - float(explained)  # residual ⟂ design: χ² = yᵀy − cᵀAᵀy
+        coef, rhs = self._solve(m)
+        return self.yy - float(coef @ rhs)
 
     def profile_chi2(self, t0: float) -> tuple[float, np.ndarray]:
         """χ² with the baseline solved by weighted linear least squares; and the model."""
@@ -271,22 +280,23 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
     model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
     t14, tau = shape.durations()
     half = search if search is not None else 0.25 * t14
-    # Search in the offset from the prediction: Brent's tolerance has a term
-    # relative to |x|, which at BJD ~ 2.46e6 would be ~0.04 d.
     # Stop when the mid-time is known to 1/50 of its expected precision
     # (the Carter et al. 2008 bound for this window), far below its error.
     cadence = float(window.time[-1] - window.time[0]) / max(window.time.size - 1, 1)
     expected = float(np.median(window.flux_err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
+    tol = max(min(expected / 50, tau * 1e-3), 1e-8)
+    # Search in the offset from the prediction: Brent's tolerance has a term
+    # relative to |x|, which at BJD ~ 2.46e6 would be ~0.04 d.
     res = minimize_scalar(lambda d: model.chi2(window.predicted + d), bounds=(-half, half),
-                          method="bounded", options={"xatol": max(min(expected / 50, tau * 1e-3), 1e-8)})
+                          method="bounded", options={"xatol": tol})
     t_best = float(window.predicted + res.x)
-    chi2, best_model = model.profile_chi2(t_best)
     # Curvature of the profile χ² from the model's derivative (Gauss–Newton,
     # the expected Fisher information): d²χ²/dt0² = 2 Σ (∂m/∂t0)² / σ², with
     # the baseline re-solved at t0 ± h so its correlation with t0 is
     # profiled out.  Unlike a second difference of the observed χ², this is
     # not thrown about by the kinks of the model at the contact points.
     h = max(tau / 10, 1e-6)
+    chi2, best_model = model.profile_chi2(t_best)
     _, m_plus = model.profile_chi2(t_best + h)
     _, m_minus = model.profile_chi2(t_best - h)
     derivative = (m_plus - m_minus) / (2 * h) * model.weight
@@ -298,7 +308,7 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
     beta = 1.0
     if correlated_noise:
         n_tau = max(2, int(round(tau / cadence)))
-        sizes = sorted({int(round(max(2, n_tau / 2) * 4 ** (i / 7))) for i in range(8)})
+        sizes = sorted({int(round(max(2, n_tau / 2) * 4 ** (i / 4))) for i in range(5)})
         beta = beta_factor((window.flux - best_model) / window.flux_err, np.ones(window.time.size), sizes)
     return MidTime(window.epoch, t_best, white * beta, white, beta, chi2, int(window.time.size),
                    model.evaluations, window.coverage, window.source)

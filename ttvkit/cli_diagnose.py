@@ -91,14 +91,11 @@ def _cmd_diagnose(args) -> int:
     from .errors import InputError
     from .likelihood import Likelihood
     from .physics import System
-    from .timescales import make_target
 
     system = System.from_toml(args.system)
     if parse_target(args) is None and system.star.ra is not None and system.star.dec is not None:
         args.ra, args.dec = str(system.star.ra.to_value("deg")), str(system.star.dec.to_value("deg"))
     table = read_table_from_args(args)
-    if table.target is None and system.star.ra is not None and system.star.dec is not None:
-        table.target = make_target(system.star.ra.to_value("deg"), system.star.dec.to_value("deg"))
     if args.steps < 100:
         raise InputError("--steps must be at least 100")
     if args.light_curves:

@@ -126,7 +126,7 @@ def read_light_curve(path, standard: str | None = None, columns: dict | None = N
     names = dict(PRESETS[preset]) if preset else {}
     names.update(columns or {})
     offset = 0.0
-    if path.suffix.lower() in (".fits", ".fit", ".fz") or path.read_bytes()[:6] == b"SIMPLE":
+    if path.suffix.lower() in (".fits", ".fit", ".fz") or _starts_with(path, b"SIMPLE"):
         cols, header = _fits_columns(path, hdu)
         names = {k: v.upper() if isinstance(v, str) else v for k, v in names.items()}
         names.setdefault("time", "TIME")
@@ -205,6 +205,15 @@ def read_light_curve(path, standard: str | None = None, columns: dict | None = N
     t, f, e = t[keep], f[keep], e[keep]
     cadence = float(np.median(np.diff(t))) if t.size > 1 else 0.0
     return LightCurve(t, f, e, path.name, exposure_time if exposure_time is not None else cadence, dropped)
+
+
+def _starts_with(path: Path, magic: bytes) -> bool:
+    """True if the file begins with ``magic`` (reads only that many bytes)."""
+    try:
+        with open(path, "rb") as handle:
+            return handle.read(len(magic)) == magic
+    except OSError:
+        raise InputError(f"{path}: cannot be read") from None
 
 
 def _is_number(x) -> bool:

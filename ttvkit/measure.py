@@ -79,12 +79,12 @@ def fit_shape(windows, initial: TransitShape, baseline_order: int = 1) -> Transi
 
     def residuals(x):
         shape = shape_of(x)
+        p = shape.batman_params(0.0)   # one shape for every window of this trial
         out = []
         for i, w in enumerate(windows):
             if models[i] is None:
                 models[i] = WindowModel(w.time, w.flux, w.flux_err, shape, baseline_order)
             m = models[i]
-            p = shape.batman_params(0.0)
             for attr in ("rp", "a", "inc", "u"):
                 setattr(m.params, attr, getattr(p, attr))
             _, model = m.profile_chi2(w.predicted + x[5 + i])

@@ -21,7 +21,7 @@ baseline, kept for the tests.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import minimize_scalar
@@ -160,9 +160,7 @@ class WindowModel:
         x = (self.time - self.centre) / max(np.ptp(self.time), 1e-9)
         self.basis = np.vander(x, baseline_order + 1, increasing=True)
         self.flux_w = self.flux * self.weight
-        self.basis_w = self.basis * self.weight[:, None]
-        self._x = x if baseline_order == 1 else None
-        self._wb = np.vstack([self.weight, self.weight * x]) if baseline_order == 1 else None
+        self.design_t = (self.basis * self.weight[:, None]).T     # [k, n]: weighted basis, rows
         self.yy = float(self.flux_w @ self.flux_w)
         self.evaluations = 0
 
@@ -172,44 +170,35 @@ class WindowModel:
         self.evaluations += 1
         return self.model.light_curve(self.params)
 
-    def _solve(self, m: np.ndarray):
-        if self._x is not None:  # linear baseline: five dot products and Cramer's rule
-            a = m * self.weight
-            ax = a * self._x
-            s0, s1, s2 = a @ a, a @ ax, ax @ ax
-            r0, r1 = a @ self.flux_w, ax @ self.flux_w
-            det = s0 * s2 - s1 * s1
-            coef = np.array([s2 * r0 - s1 * r1, s0 * r1 - s1 * r0]) / det
-            return coef, np.array([r0, r1])
-        design = m[:, None] * self.basis_w
-        normal = design.T @ design
-        rhs = design.T @ self.flux_w
+    def _normal(self, m: np.ndarray):
+        """Normal equations AᵀA, Aᵀy of the baseline for the transit model ``m``."""
+        a = m * self.design_t
+        return a @ a.T, a @ self.flux_w
+
+    def _solve(self, m: np.ndarray) -> np.ndarray:
+        """Baseline coefficients for the transit model ``m``."""
+        normal, rhs = self._normal(m)
         if normal.shape == (2, 2):  # the usual linear baseline: Cramer's rule, no LAPACK call
             det = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
-            coef = np.array([normal[1, 1] * rhs[0] - normal[0, 1] * rhs[1],
+            return np.array([normal[1, 1] * rhs[0] - normal[0, 1] * rhs[1],
                              normal[0, 0] * rhs[1] - normal[1, 0] * rhs[0]]) / det
-        else:
-            coef = np.linalg.solve(normal, rhs)
-        return coef, rhs
+        return np.linalg.solve(normal, rhs)
 
     def chi2(self, t0: float) -> float:
-        """Profile χ²: the baseline solved by weighted linear least squares (normal equations)."""
-        m = self.light_curve(t0)
-        if self._wb is not None:  # linear baseline: one 2×n product, the 2×2 solve in closed form
-            a = m * self._wb
-            g = a @ a.T
-            r = a @ self.flux_w
-            det = g[0, 0] * g[1, 1] - g[0, 1] * g[0, 1]
-            explained = (g[1, 1] * r[0] * r[0] - 2 * g[0, 1] * r[0] * r[1] + g[0, 0] * r[1] * r[1]) / det
-            return self.yy - float(explained)  # residual ⟂ design: χ² = yᵀy − cᵀAᵀy
-        coef, rhs = self._solve(m)
-        return self.yy - float(coef @ rhs)
+        """Profile χ² = yᵀy − (Aᵀy)ᵀ(AᵀA)⁻¹(Aᵀy): the baseline solved by weighted least squares."""
+        normal, rhs = self._normal(self.light_curve(t0))
+        if normal.shape == (2, 2):  # the quadratic form in closed form: this is the hot path
+            det = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
+            explained = (normal[1, 1] * rhs[0] ** 2 - 2 * normal[0, 1] * rhs[0] * rhs[1]
+                         + normal[0, 0] * rhs[1] ** 2) / det
+        else:
+            explained = rhs @ np.linalg.solve(normal, rhs)
+        return self.yy - float(explained)
 
     def profile_chi2(self, t0: float) -> tuple[float, np.ndarray]:
         """χ² with the baseline solved by weighted linear least squares; and the model."""
         m = self.light_curve(t0)
-        coef, _ = self._solve(m)
-        model = (m[:, None] * self.basis) @ coef
+        model = (m[:, None] * self.basis) @ self._solve(m)
         r = (self.flux - model) * self.weight
         return float(r @ r), model
 
@@ -344,8 +333,3 @@ def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: i
     sampler.run_mcmc(p0, n_steps, progress=False)
     chain = sampler.get_chain(discard=n_steps // 3, flat=True)[:, 0]
     return float(np.median(chain)), float(np.std(chain))
-
-
-def with_exposure(shape: TransitShape, exposure_time: float, supersample: int) -> TransitShape:
-    """The same shape, supersampled over ``exposure_time`` days."""
-    return replace(shape, exposure_time=float(exposure_time), supersample=int(supersample))

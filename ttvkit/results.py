@@ -67,6 +67,9 @@ class FitResult:
     samples: np.ndarray | None = None
     sampling: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)
+    # Summaries are computed once: the report, the checks and the JSON all
+    # read them, and derived quantities over thousands of draws are not free.
+    _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def name(self) -> str:
@@ -116,12 +119,17 @@ class FitResult:
         """Posterior samples, or draws from the Gaussian approximation if not sampled."""
         if self.samples is not None:
             return self.samples
+        key = ("draws", count, seed)
+        if key in self._cache:
+            return self._cache[key]
         rng = np.random.default_rng(seed)
         cov = 0.5 * (self.covariance + self.covariance.T)
         try:
-            return rng.multivariate_normal(self.theta, cov, size=count, method="eigh")
+            draws = rng.multivariate_normal(self.theta, cov, size=count, method="eigh")
         except (np.linalg.LinAlgError, ValueError):
-            return np.repeat(self.theta[None, :], count, axis=0)
+            draws = np.repeat(self.theta[None, :], count, axis=0)
+        self._cache[key] = draws
+        return draws
 
     def _periods(self):
         periods = [p.periodic for p in self.hypothesis.parameters()]
@@ -129,6 +137,8 @@ class FitResult:
 
     def parameter_table(self) -> dict:
         """name → {value, lower, upper, unit, description} in the shown units."""
+        if "parameters" in self._cache:
+            return self._cache["parameters"]
         draws = self.draws()
         out = {}
         params = list(self.hypothesis.parameters())
@@ -147,10 +157,13 @@ class FitResult:
             best = float(np.exp(self.theta[-1]) * DAY_S) if self.samples is None else med
             out["jitter"] = {"value": best, "lower": lo, "upper": hi, "unit": "s",
                              "description": "extra white timing noise added in quadrature"}
+        self._cache["parameters"] = out
         return out
 
     def derived_table(self) -> dict:
         """name → {value, lower, upper, unit, description} of the derived quantities."""
+        if "derived" in self._cache:
+            return self._cache["derived"]
         draws = self.draws()
         model = self.model_theta(draws)
         best = self.hypothesis.derived(self.model_theta()[None, :], self.data)
@@ -161,6 +174,7 @@ class FitResult:
             value = med if self.samples is not None else float(np.ravel(best[name].values)[0])
             out[name] = {"value": value, "lower": lo, "upper": hi, "unit": d.unit,
                          "description": d.description}
+        self._cache["derived"] = out
         return out
 
     def to_dict(self) -> dict:

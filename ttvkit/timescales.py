@@ -304,7 +304,7 @@ def to_bjd_tdb(values, standard: "str | TimeStandard", target: SkyCoord | None =
     t = _time(std, x, location)
     bary = t.light_travel_time(_direction(target, t), kind="barycentric")
     tdb = t.tdb
-    return (tdb.jd1 - 0.0) + (tdb.jd2 + bary.to_value(u.day))
+    return tdb.jd1 + (tdb.jd2 + bary.to_value(u.day))
 
 
 def from_bjd_tdb(bjd_tdb, standard: "str | TimeStandard", target: SkyCoord | None = None,

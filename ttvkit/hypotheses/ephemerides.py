@@ -20,7 +20,8 @@ __all__ = ["ConstantPeriod", "OrbitalDecay", "MS_PER_YR_PER_S_PER_S"]
 MS_PER_YR_PER_S_PER_S = 365.25 * DAY_S * 1e3
 
 
-def _t0_period(data: TimingData):
+def t0_period_bounds(data: TimingData):
+    """Default prior bounds of T0 (offset, days) and P shared by the ephemeris terms."""
     lo = np.array([-0.1 * data.period, data.period * (1 - 1e-3)])
     hi = np.array([0.1 * data.period, data.period * (1 + 1e-3)])
     return lo, hi
@@ -38,7 +39,7 @@ class ConstantPeriod(Term):
                 Parameter("P", "d", "orbital period"))
 
     def bounds(self, data):
-        return _t0_period(data)
+        return t0_period_bounds(data)
 
     def guesses(self, data, residuals):
         return [np.array([0.0, data.period])]
@@ -61,7 +62,7 @@ class OrbitalDecay(Term):
                 Parameter("dP_dE", "d/epoch", "change of the period per orbit"))
 
     def bounds(self, data):
-        lo, hi = _t0_period(data)
+        lo, hi = t0_period_bounds(data)
         e_max = max(np.max(np.abs(data.epoch)), 1.0)
         limit = 0.1 * data.period / e_max ** 2
         return np.append(lo, -limit), np.append(hi, limit)

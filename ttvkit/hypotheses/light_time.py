@@ -106,11 +106,9 @@ class LightTravelTime(Term):
         if host:
             from ..physics.companions import minimum_companion_mass
 
+            # one root per draw; 2000 evenly spaced draws pin the quantiles
             flat = np.atleast_1d(f_m).ravel()
-            mins = np.array([minimum_companion_mass(f * u.Msun, host * u.Msun).to_value(u.Mjup)
-                             for f in flat[: min(flat.size, 2000)]])
-            if flat.size > 2000:  # thin large posteriors: the quantiles need no more
-                mins = np.resize(mins, flat.size)
-            out["minimum_companion_mass"] = Derived(mins.reshape(np.shape(f_m)) if mins.size == np.size(f_m)
-                                                    else mins, "Mjup", "companion mass for sin i = 1")
+            chosen = flat[np.linspace(0, flat.size - 1, min(flat.size, 2000)).astype(int)]
+            mins = np.array([minimum_companion_mass(f * u.Msun, host * u.Msun).to_value(u.Mjup) for f in chosen])
+            out["minimum_companion_mass"] = Derived(mins, "Mjup", "companion mass for sin i = 1")
         return out

@@ -19,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 
 from .base import Derived, Parameter, Term, TimingData
+from .ephemerides import t0_period_bounds
 
 __all__ = ["ApsidalPrecession"]
 
@@ -44,9 +45,8 @@ class ApsidalPrecession(Term):
 
     def bounds(self, data):
         low_rate, high_rate = self._rate_range(data)
-        lo = np.array([-0.1 * data.period, data.period * (1 - 1e-3), -0.1, -0.1, low_rate])
-        hi = np.array([0.1 * data.period, data.period * (1 + 1e-3), 0.1, 0.1, high_rate])
-        return lo, hi
+        lo, hi = t0_period_bounds(data)
+        return np.append(lo, [-0.1, -0.1, low_rate]), np.append(hi, [0.1, 0.1, high_rate])
 
     def guesses(self, data, residuals):
         n_epochs = max(np.ptp(data.epoch), 10.0)

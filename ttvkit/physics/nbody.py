@@ -250,21 +250,22 @@ def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: fl
     out = np.full(mp.shape + (k,), np.nan)
     count = np.zeros(mp.shape, int)
 
-    def relative(r_, v_, j=None):
+    def relative(r_, v_):
+        """Star-to-planet positions and velocities (the sky plane is x, y)."""
         xb, ub = jac.from_jacobi(r_), jac.from_jacobi(v_)
-        return xb[:, 1:] - xb[:, :1], ub[:, 1:] - ub[:, :1], xb[:, 0]
+        return xb[:, 1:] - xb[:, :1], ub[:, 1:] - ub[:, :1]
 
     # Leapfrog with the half kicks of consecutive steps merged: the state
     # after each drift carries velocities half a kick behind, which is
     # ample to detect a sign change of g; the refinement below restarts
     # from a synchronised state.
-    q, qv, _ = relative(r, v)
+    q, qv = relative(r, v)
     g_old = q[..., 0] * qv[..., 0] + q[..., 1] * qv[..., 1]
     v = _kick(jac, r, v, 0.5 * h)
     for step in range(steps):
         r0, v0 = r, v                                       # v0 is half a kick ahead of r0
         r, v = _kepler_drift(r, v, jac.mu, h)
-        q, qv, _ = relative(r, v)
+        q, qv = relative(r, v)
         g_new = q[..., 0] * qv[..., 0] + q[..., 1] * qv[..., 1]
         v = _kick(jac, r, v, h)
         hit = (g_old < 0) & (g_new >= 0) & (q[..., 2] > 0)

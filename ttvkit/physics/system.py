@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import sys
 from dataclasses import dataclass, field, fields
+from typing import ClassVar
 from pathlib import Path
 
 import astropy.constants as const
@@ -45,17 +46,22 @@ _SCHEMA = {
 }
 
 
-def _need(obj, name: str, formula: str):
-    value = getattr(obj, name)
-    if value is None:
-        section = getattr(obj, "_section", "")
-        raise MissingValueError(f"{section}.{name} is needed for {formula} but was not given; "
-                                f"add it to the system file's [{section}] table")
-    return value
+class _Section:
+    """A table of the system file; ``need`` names the missing value and the formula."""
+
+    SECTION: ClassVar[str] = ""
+
+    def need(self, name: str, formula: str):
+        """The value ``name``, or a MissingValueError naming it and ``formula``."""
+        value = getattr(self, name)
+        if value is None:
+            raise MissingValueError(f"{self.SECTION}.{name} is needed for {formula} but was not given; "
+                                    f"add it to the system file's [{self.SECTION}] table")
+        return value
 
 
 @dataclass
-class Star:
+class Star(_Section):
     """The host star (or, for an eclipsing binary, the active star).
 
     Attributes
@@ -76,6 +82,8 @@ class Star:
         standard model of a radiative Sun-like star); both from memory.
     """
 
+    SECTION: ClassVar[str] = "star"
+
     mass: u.Quantity | None = None
     radius: u.Quantity | None = None
     teff: u.Quantity | None = None
@@ -87,16 +95,11 @@ class Star:
     ra: u.Quantity | None = None
     dec: u.Quantity | None = None
     age: u.Quantity | None = None
-    _section: str = field(default="star", repr=False)
 
     def __post_init__(self):
         if self.luminosity is None and self.teff is not None and self.radius is not None:
             self.luminosity = (4 * np.pi * self.radius ** 2 * const.sigma_sb
                                * self.teff ** 4).to(u.Lsun)
-
-    def need(self, name: str, formula: str):
-        """The value ``name``, or a MissingValueError naming it and ``formula``."""
-        return _need(self, name, formula)
 
     @property
     def structure_index(self) -> float:
@@ -108,26 +111,25 @@ class Star:
 
 
 @dataclass
-class Companion:
+class Companion(_Section):
     """The transiting planet, or the other star of an eclipsing binary."""
+
+    SECTION: ClassVar[str] = "companion"
 
     mass: u.Quantity | None = None
     radius: u.Quantity | None = None
     love_number: float | None = None
-    _section: str = field(default="companion", repr=False)
-
-    def need(self, name: str, formula: str):
-        """The value ``name``, or a MissingValueError naming it and ``formula``."""
-        return _need(self, name, formula)
 
 
 @dataclass
-class Orbit:
+class Orbit(_Section):
     """The orbit of the companion.
 
     ``eccentricity_limit`` is an upper limit from RVs or occultation timing,
     used to test the apsidal-precession hypothesis.
     """
+
+    SECTION: ClassVar[str] = "orbit"
 
     period: u.Quantity | None = None
     semi_major_axis: u.Quantity | None = None
@@ -136,27 +138,19 @@ class Orbit:
     eccentricity_limit: float | None = None
     omega: u.Quantity | None = None
     inclination: u.Quantity | None = None
-    _section: str = field(default="orbit", repr=False)
-
-    def need(self, name: str, formula: str):
-        """The value ``name``, or a MissingValueError naming it and ``formula``."""
-        return _need(self, name, formula)
 
 
 @dataclass
-class RadialVelocityLimits:
+class RadialVelocityLimits(_Section):
     """What radial velocities already say (all optional)."""
+
+    SECTION: ClassVar[str] = "radial_velocity"
 
     baseline: u.Quantity | None = None
     residual_rms: u.Quantity | None = None
     jitter: u.Quantity | None = None
     acceleration: u.Quantity | None = None
     acceleration_uncertainty: u.Quantity | None = None
-    _section: str = field(default="radial_velocity", repr=False)
-
-    def need(self, name: str, formula: str):
-        """The value ``name``, or a MissingValueError naming it and ``formula``."""
-        return _need(self, name, formula)
 
     @property
     def scatter(self) -> u.Quantity | None:
@@ -250,8 +244,6 @@ class System:
             obj = getattr(self, section)
             entry = {}
             for f in fields(obj):
-                if f.name.startswith("_"):
-                    continue
                 v = getattr(obj, f.name)
                 if isinstance(v, u.Quantity):
                     entry[f.name] = {"value": float(v.value), "unit": v.unit.to_string()}

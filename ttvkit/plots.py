@@ -179,19 +179,21 @@ def corner_figure(diagnosis) -> Figure:
     cols, labels = [], []
     for i, p in enumerate(params):
         v = draws[:, i] * p.to_display
-        if p.name == "T0":
+        unit = p.unit if p.unit != "BJD_TDB" else "d"
+        if p.name in ("T0", "P"):  # seconds from the median: days would show only noise digits
             v = (v - np.median(v)) * 86400
-            labels.append("T0 − median (s)")
-        elif p.name == "P":
-            v = (v - np.median(v)) * 86400
-            labels.append("P − median (s)")
+            labels.append(f"{p.name} − median (s)")
+        elif np.median(np.abs(v)) > 100 * max(np.std(v), 1e-300):  # a large offset: show the spread
+            v = v - np.median(v)
+            labels.append(f"{p.name} − median ({unit})" if unit else f"{p.name} − median")
         else:
-            labels.append(f"{p.name} ({p.unit})" if p.unit else p.name)
+            labels.append(f"{p.name} ({unit})" if unit else p.name)
         cols.append(v)
     with _style():
         fig = plt.figure(figsize=(7.0, 7.0))
         corner.corner(np.column_stack(cols), labels=labels, fig=fig, quantiles=[0.16, 0.5, 0.84],
-                      show_titles=False, plot_datapoints=False, smooth=1.0, label_kwargs={"fontsize": 7})
+                      show_titles=False, plot_datapoints=False, smooth=1.0, label_kwargs={"fontsize": 7},
+                      labelpad=0.12, max_n_ticks=4)
         kind = "posterior" if lead.samples is not None else "Gaussian approximation at the optimum"
         fig.suptitle(f"{lead.name}: {kind}", fontsize=9)
     return fig

@@ -6,9 +6,10 @@ Run by hand (not part of the test suite):
 
 Integrates a batch of two-planet systems (a transiting planet at 10 d and a
 perturber between 1.5x and 3.5x its period, 1e-5 to 1e-4 M_sun, fixed seed)
-over 500 inner orbits in one call, then a sample of the same systems one by
-one with scipy's DOP853 (rtol 1e-12), and prints the speed-up per system
-and the worst transit-time difference on the sample.  Goal (issue): 100x
+over 500 inner orbits in one call, timing the transiting planet (as the
+perturber search does), then a sample of the same systems one by one with
+scipy's DOP853 (rtol 1e-12), and prints the speed-up per system and the
+worst transit-time difference of the transiting planet on the sample.  Goal (issue): 100x
 at <= 1 s agreement for 1000 systems.
 """
 
@@ -20,7 +21,7 @@ import numpy as np
 from ttvkit.physics.nbody import reference_transit_times, transit_times
 
 
-def main(n_systems: int = 1000, n_reference: int = 5):
+def main(n_systems: int = 1000, n_reference: int = 20):
     rng = np.random.default_rng(3)
     s = n_systems
     masses = np.column_stack([np.ones(s), np.full(s, 1e-3), 10 ** rng.uniform(-5, -4, s)])
@@ -32,7 +33,7 @@ def main(n_systems: int = 1000, n_reference: int = 5):
     mean = rng.uniform(0, 2 * np.pi, (s, 2))
     t_end = 5000.0
     start = time.perf_counter()
-    fast = transit_times(masses, period, ecc, omega, inc, node, mean, t_end)
+    fast = transit_times(masses, period, ecc, omega, inc, node, mean, t_end, planets=0)
     engine = time.perf_counter() - start
     pick = slice(0, n_reference)
     start = time.perf_counter()

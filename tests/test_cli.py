@@ -20,7 +20,7 @@ def test_version_and_help(capsys):
         main(["--version"])
     assert info.value.code == 0
     assert "ttvkit" in capsys.readouterr().out
-    for cmd in ("convert", "demo", "budget", "fit", "compare", "diagnose"):
+    for cmd in ("convert", "demo", "budget", "fit", "compare", "diagnose", "perturbers"):
         with pytest.raises(SystemExit):
             main([cmd, "--help"])
         assert "examples:" in capsys.readouterr().out
@@ -133,7 +133,7 @@ def test_budget_missing_system_value(tmp_path, capsys):
 
 def test_demo_runs_the_whole_path(tmp_path, capsys):
     out = tmp_path / "demo"
-    code, stdout, _ = run(["demo", "--out", str(out), "--no-sample", "--json"], capsys)
+    code, stdout, _ = run(["demo", "--out", str(out), "--no-sample", "--no-perturbers", "--json"], capsys)
     assert code == 0
     summary = json.loads(stdout)
     assert (out / "diagnosis" / "report.html").exists()

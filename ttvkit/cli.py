@@ -40,7 +40,8 @@ The demo is an invented star (Orvessa) and planet (Orvessa b) with invented
 timings from six invented sources, one of them planted in the wrong time
 standard.  It converts the timings to BJD_TDB, catches the planted source,
 re-reads it in the standard the check names, and writes the full diagnosis
-to DIR/diagnosis/report.html.  Its inputs are written to DIR/inputs so you
+(with an N-body map of perturbing planets; --no-perturbers skips it) to
+DIR/diagnosis/report.html.  Its inputs are written to DIR/inputs so you
 can run every other command on them.
 """
 
@@ -111,6 +112,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--force", action="store_true", help="write into a non-empty DIR")
     p.add_argument("--no-sample", action="store_true", help="skip posterior sampling (faster)")
     p.add_argument("--progress", action="store_true", help="show the sampler's progress bars")
+    p.add_argument("--no-perturbers", action="store_true",
+                   help="skip the N-body perturber map (about a minute faster)")
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     p.set_defaults(func=_cmd_demo)
 
@@ -127,11 +130,12 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     p.set_defaults(func=_cmd_budget)
 
-    from . import cli_diagnose, cli_fitting, cli_measure
+    from . import cli_diagnose, cli_fitting, cli_measure, cli_perturbers
 
     cli_measure.add_commands(sub)
     cli_fitting.add_commands(sub)
     cli_diagnose.add_commands(sub)
+    cli_perturbers.add_commands(sub)
     return parser
 
 
@@ -206,7 +210,7 @@ def _cmd_demo(args) -> int:
     from .demo_run import run_demo
 
     result = run_demo(args.out, force=args.force, quiet=args.json, sampled=not args.no_sample,
-                      progress=args.progress)
+                      progress=args.progress, perturbers=not args.no_perturbers)
     if args.json:
         print(json.dumps(result, indent=2))
     return 0

@@ -53,12 +53,18 @@ def add_commands(sub) -> None:
     p.add_argument("--jitter", action="store_true", help="fit an extra white timing noise")
     p.add_argument("--no-progress", action="store_true", help="no progress bars")
     p.add_argument("--json", action="store_true", help="print diagnosis.json's content on stdout")
+    p.add_argument("--perturbers", action="store_true",
+                   help="also map the perturbing planets the timing allows (N-body; minutes)")
+    from .cli_perturbers import add_map_options
+
+    add_map_options(p)
     _add_table_options(p)
     p.set_defaults(func=_cmd_diagnose)
 
 
 def run_diagnosis(table, system, out, force=False, relabel=(), exclude=(), sampled=True, n_steps=3000,
-                  seed=0, years=10.0, precision=None, likelihood=None, progress=True, say=print):
+                  seed=0, years=10.0, precision=None, likelihood=None, progress=True, say=print,
+                  perturber_options: dict | None = None):
     """Relabel/exclude sources as asked, diagnose, write the report; returns (diagnosis, notes, paths)."""
     from ._outdir import check_folder
     from .diagnose import diagnose
@@ -80,8 +86,11 @@ def run_diagnosis(table, system, out, force=False, relabel=(), exclude=(), sampl
         notes.append(f"source {source!r} was left out at the user's request")
     say(f"diagnose: {len(table)} mid-times, {len(table.sources)} sources; fitting "
         f"{'and sampling ' if sampled else ''}every hypothesis")
+    if perturber_options is not None:
+        say("diagnose: and mapping perturbing planets (N-body; minutes)")
     diagnosis = diagnose(table, system, sampled=sampled, n_steps=n_steps, seed=seed, progress=progress,
-                         forecast_years=years, timing_precision_s=precision, likelihood=likelihood)
+                         forecast_years=years, timing_precision_s=precision, likelihood=likelihood,
+                         perturber_map=perturber_options is not None, perturber_options=perturber_options)
     paths = write_report(diagnosis, out, force=force, notes=notes)
     return diagnosis, notes, paths
 
@@ -112,9 +121,25 @@ def _cmd_diagnose(args) -> int:
         table = TimingTable.concatenate([table, measured])
     say = (lambda *a: print(*a, file=sys.stderr)) if args.json else print
     like = Likelihood("student-t" if args.robust else "gaussian", jitter=args.jitter)
-    diagnosis, notes, paths = run_diagnosis(
-        table, system, args.out, args.force, args.relabel, args.exclude_source, not args.no_sample,
-        args.steps, args.seed, args.years, args.precision, like, not args.no_progress and not args.json, say)
+    perturber_options = None
+    if args.perturbers:
+        import astropy.units as u
+        import numpy as np
+
+        from .cli_perturbers import map_options
+
+        period = system.orbit.period
+        if period is None:
+            period = float(np.polyfit(table.epoch, table.time, 1)[0]) * u.day
+        perturber_options = map_options(args, period)
+    try:
+        diagnosis, notes, paths = run_diagnosis(
+            table, system, args.out, args.force, args.relabel, args.exclude_source, not args.no_sample,
+            args.steps, args.seed, args.years, args.precision, like, not args.no_progress and not args.json, say,
+            perturber_options)
+    finally:
+        if perturber_options and perturber_options.get("executor") is not None:
+            perturber_options["executor"].shutdown()
     if args.json:
         print((paths["diagnosis.json"]).read_text())
         return 0

@@ -89,6 +89,7 @@ class Diagnosis:
     warnings: list
     curves: dict = field(default_factory=dict)
     settings: dict = field(default_factory=dict)
+    perturbers: object = None   # a PerturberMap when asked for
 
     @property
     def standing(self) -> list:
@@ -137,6 +138,7 @@ class Diagnosis:
             "forecast": self.forecast.to_dict() if self.forecast is not None else None,
             "warnings": list(self.warnings),
             "settings": self.settings,
+            "perturber_map": self.perturbers.to_dict() if self.perturbers is not None else None,
         }
 
 
@@ -172,7 +174,8 @@ def _assess(fit, delta_bic, system) -> Assessment:
 def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True, n_steps: int = 3000,
              seed: int = 0, progress: bool = True, forecast_years: float = 10.0,
              timing_precision_s: float | None = None, likelihood=None, executor=None,
-             now: float | None = None, max_steps: int | None = 6000) -> Diagnosis:
+             now: float | None = None, max_steps: int | None = 6000, perturber_map: bool = False,
+             perturber_options: dict | None = None) -> Diagnosis:
     """Fit every hypothesis and judge each against the data and the physics.
 
     Parameters
@@ -201,6 +204,11 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
         BJD_TDB the forecast starts from (default: the present).
     max_steps : int, optional
         Chains shorter than 50 autocorrelation times are extended up to this.
+    perturber_map : bool
+        Also map the perturbing planets the timing allows
+        (:func:`ttvkit.perturbers.map_perturbers`; minutes of N-body work).
+    perturber_options : dict, optional
+        Keyword arguments for :func:`ttvkit.perturbers.map_perturbers`.
 
     Returns
     -------
@@ -249,6 +257,13 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
                           settings={"sampled": sampled, "n_steps": n_steps, "seed": seed,
                                     "forecast_years": forecast_years,
                                     "likelihood": (likelihood.describe() if likelihood else "Gaussian")})
+    if perturber_map:
+        from .perturbers import map_perturbers
+
+        options = {"progress": progress, **(perturber_options or {})}
+        diagnosis.perturbers = map_perturbers(table, system, **options)
+        diagnosis.settings["perturber_map"] = {k: v for k, v in options.items() if k != "executor"
+                                               and isinstance(v, (int, float, str, bool))}
     diagnosis.curves = _curves(diagnosis)
     return diagnosis
 

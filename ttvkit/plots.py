@@ -21,7 +21,7 @@ import numpy as np  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 
 __all__ = ["oc_figure", "periodogram_figure", "envelope_figure", "companion_figure", "forecast_figure",
-           "corner_figure", "save_figure", "all_figures"]
+           "corner_figure", "perturber_map_figure", "save_figure", "all_figures"]
 
 COLOURS = ["#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#000000"]
 MARKERS = ["o", "s", "^", "D", "v", "P", "X", "<", ">"]
@@ -199,11 +199,66 @@ def corner_figure(diagnosis) -> Figure:
     return fig
 
 
+def perturber_map_figure(pmap) -> Figure:
+    """The mass–period map: allowed and preferred perturber masses over period ratio.
+
+    Parameters
+    ----------
+    pmap : PerturberMap
+        From :func:`ttvkit.perturbers.map_perturbers` (or ``Diagnosis.perturbers``).
+    """
+    from .perturbers import RESONANCES
+
+    s = pmap.summary
+    ratio = np.asarray(s["period_ratio"])
+    hi = np.asarray(s["largest_mass"].value)
+    best = np.asarray(s["best_mass"].value)
+    gain = np.asarray(s["delta_chi2_best"])
+    stable = np.asarray(s["hill_stable"], bool)
+    with _style():
+        fig = _figure(6.4, 4.0)
+        ax = fig.subplots()
+        ok = np.isfinite(hi) & (hi > 0)
+        top = np.nanmax(hi[ok]) * 30 if np.any(ok) else 1e4
+        ax.fill_between(ratio, np.where(ok, hi, np.nan), top, color=COLOURS[1], alpha=0.18, lw=0,
+                        label=f"excluded by the timing (Δχ² > {pmap.delta_chi2:g})")
+        ax.loglog(ratio, np.where(ok, hi, np.nan), "-", color=COLOURS[1], lw=1.0,
+                  label="largest mass the timing allows")
+        if "rv_limit_mass" in s.colnames:
+            rv = np.asarray(s["rv_limit_mass"].value)
+            ax.loglog(ratio, rv, "--", color="k", lw=1.0, label="RV limit (3× RV scatter over the baseline)")
+        good = ok & (gain >= 1) & (best > 0)
+        sc = ax.scatter(ratio[good], best[good], c=gain[good], s=10, cmap="viridis", marker="o", zorder=3,
+                        label="best-fitting mass (colour: χ² gain)")
+        if np.any(good):
+            fig.colorbar(sc, ax=ax, label="χ² gain over a constant period")
+        unstable = ~stable
+        if np.any(unstable):
+            edges = ratio[unstable]
+            ax.axvspan(edges.min(), edges.max(), color="0.85", lw=0, zorder=0,
+                       label="Hill-unstable with the transiting planet")
+        for r in RESONANCES:
+            for x in (r, 1 / r):
+                if ratio.min() <= x <= ratio.max():
+                    ax.axvline(x, color="0.6", lw=0.5, ls=":", zorder=0)
+        ax.set_xlabel("perturber period / transiting planet's period")
+        ax.set_ylabel("perturber mass (Earth masses)")
+        if np.any(ok):
+            ax.set_ylim(max(np.nanmin(np.where(ok, np.minimum(hi, np.where(best > 0, best, hi)), np.nan)) / 3,
+                            1e-3), top)
+        ax.set_title(f"where a perturbing planet could hide ({pmap.n_points} grid points; dotted: resonances)")
+        ax.legend(frameon=False, loc="upper left", fontsize=6.5)
+    return fig
+
+
 def all_figures(diagnosis) -> dict:
-    """name → Figure for every figure of the report."""
-    return {"oc_diagram": oc_figure(diagnosis), "periodogram": periodogram_figure(diagnosis),
-            "activity_envelope": envelope_figure(diagnosis), "companion_check": companion_figure(diagnosis),
-            "forecast": forecast_figure(diagnosis), "posterior_corner": corner_figure(diagnosis)}
+    """name → Figure for every figure of the report (the perturber map when the diagnosis has one)."""
+    figures = {"oc_diagram": oc_figure(diagnosis), "periodogram": periodogram_figure(diagnosis),
+               "activity_envelope": envelope_figure(diagnosis), "companion_check": companion_figure(diagnosis),
+               "forecast": forecast_figure(diagnosis), "posterior_corner": corner_figure(diagnosis)}
+    if getattr(diagnosis, "perturbers", None) is not None:
+        figures["perturber_map"] = perturber_map_figure(diagnosis.perturbers)
+    return figures
 
 
 def save_figure(fig: Figure, stem: "str | Path") -> list[Path]:

@@ -24,6 +24,12 @@ __all__ = ["write_report", "render_html", "MODEL_ASSUMPTIONS"]
 
 #: The assumptions of each physical model, as the report states them.
 MODEL_ASSUMPTIONS = {
+    "Perturbing planet (N-body mass–period map)": (
+        "A second planet on a circular, coplanar orbit integrated with the transiting planet by a corrected "
+        "Wisdom–Holman map (agreeing with a high-order Runge–Kutta reference to better than 1 s over 500 "
+        "orbits); transit-time variations scale linearly with its mass; the largest allowed mass is where χ² "
+        "rises by the threshold above the constant-period fit; Hill stability by Gladman (1993); RV visibility "
+        "as for a light-travel-time companion (3× the RV scatter over the baseline)."),
     "Activity cycle (Applegate 1992)": (
         "An activity cycle moves angular momentum between the star's interior and an outer shell; the "
         "shell's changed spin changes the star's quadrupole moment and so the orbital period. Core and "
@@ -72,6 +78,10 @@ _CAPTIONS = {
     "companion_check": "RV semi-amplitude each companion hypothesis implies, against what the system's RVs "
                        "would already have shown.",
     "forecast": "Predicted O − C of the standing hypotheses; dotted lines mark where two part by 3σ.",
+    "perturber_map": "Perturber mass against period ratio: the shaded region is excluded by the timing "
+                     "(χ² above the constant-period fit by more than the threshold); dots are the best-fitting "
+                     "masses, coloured by how much they improve χ²; the dashed line is the RV limit; grey "
+                     "periods are Hill-unstable beside the transiting planet.",
     "posterior_corner": "Posterior of the leading hypothesis (or its Gaussian approximation when not sampled).",
 }
 
@@ -92,6 +102,31 @@ def _fmt(v) -> str:
     if isinstance(v, float):
         return f"{v:.4g}"
     return _e(v)
+
+
+def _perturber_section(pmap) -> str:
+    """A paragraph on the mass–period map: the best point and what rules it in or out."""
+    import astropy.units as u
+
+    info = pmap.to_dict()
+    b = info["best_point"]
+    s = pmap.summary
+    rows = [r for r in s if r["integrated"]]
+    allowed_small = [r for r in rows if r["hill_stable"] and r["rv_seen"] != 1]
+    text = [f"<h2>Perturbing planets</h2><p>{info['grid_points']} N-body integrations over perturber periods "
+            f"of {float(s['period_ratio'].min()):.2g}–{float(s['period_ratio'].max()):.3g}× the transiting "
+            f"planet's. The best single perturber sits at {b['period_ratio']:.3f}× the period with "
+            f"{b['mass_mearth']:.3g} Earth masses and improves χ² by {b['delta_chi2_gain']:.1f} over a "
+            f"constant period ({'Hill-stable' if b['hill_stable'] else 'Hill-unstable'}).</p>"]
+    if allowed_small:
+        lo = min(allowed_small, key=lambda r: r["largest_mass"])
+        text.append(f"<p>Tightest timing limit on a stable, RV-silent perturber: below "
+                    f"{lo['largest_mass'].to_value(u.Mearth):.3g} Earth masses at "
+                    f"{float(lo['period_ratio']):.3f}× the period.</p>")
+    text.append("<p>" + _e("; ".join(pmap.notes)) + ". The map assumes coplanar orbits, a circular "
+                "perturber and TTVs linear in its mass; it screens where a planet could hide, it does not "
+                "detect one.</p>")
+    return "".join(text)
 
 
 def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
@@ -139,6 +174,8 @@ def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
                          f"<td>{_fmt(w['end_utc'])}</td><td>{w['mid_bjd_tdb']:.5f}</td><td>{w['uncertainty_s']:.0f}</td></tr>")
         parts.append(f"</table><p>Predicted by <code>{_e(f.windows[0]['hypothesis']) if f.windows else ''}</code>; "
                      "UTC at the geocentre.</p>")
+    if getattr(d, "perturbers", None) is not None:
+        parts.append(_perturber_section(d.perturbers))
     parts.append("<h2>Each hypothesis</h2>")
     for a in d.assessments:
         table = a.fit.to_dict()

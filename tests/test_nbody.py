@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from ttvkit import InputError
-from ttvkit.physics.nbody import _Jacobi, _setup, energy, reference_transit_times, transit_times
+from ttvkit.physics.nbody import _setup, energy, reference_transit_times, transit_times
 from ttvkit.physics.resonance import resonance_coefficients
 
 HALF_PI = np.pi / 2

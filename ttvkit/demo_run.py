@@ -17,9 +17,11 @@ from .demo import PLANET_NAME, build_demo_scenario, target
 __all__ = ["run_demo"]
 
 
-#: The demo's perturber map: fewer points than the command's default (2000)
-#: so the demo stays near two minutes; ``ttvkit perturbers`` runs the full grid.
-DEMO_MAP_PERIODS = 150
+#: The demo's perturber map: 80 periods (2 packed on each side of each
+#: resonance) x 2 phases, far fewer than the command's default 2000 points,
+#: so the demo stays within about two minutes; ``ttvkit perturbers`` runs
+#: the full grid.
+DEMO_MAP_PERIODS = 80
 
 
 def run_demo(out: "str | Path", force: bool = False, quiet: bool = False, sampled: bool = True,
@@ -39,7 +41,7 @@ def run_demo(out: "str | Path", force: bool = False, quiet: bool = False, sample
     progress : bool
         Show the sampler's progress bars.
     perturbers : bool
-        Include the N-body perturber map (DEMO_MAP_PERIODS periods × 4 phases).
+        Include the N-body perturber map (DEMO_MAP_PERIODS periods × 2 phases).
 
     Returns
     -------
@@ -95,7 +97,8 @@ def run_demo(out: "str | Path", force: bool = False, quiet: bool = False, sample
         if perturbers:
             from .perturbers import perturber_periods
 
-            options = {"periods": perturber_periods(system.orbit.period, n=DEMO_MAP_PERIODS), "n_phases": 4}
+            options = {"periods": perturber_periods(system.orbit.period, n=DEMO_MAP_PERIODS, resonance_points=2),
+                       "n_phases": 2}
         diagnosis, notes, report = run_diagnosis(table, system, stage / "diagnosis", relabel=relabel,
                                                  sampled=sampled, progress=progress, say=say,
                                                  perturber_options=options)

@@ -265,7 +265,6 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     chi2_const = float(np.sum(((t - design @ coef) * wts) ** 2))
     p_transit = float(coef[1])
     e0 = int(epoch.min())
-    t_first = float(coef[0])                      # mid-time of epoch e0 on the fitted ephemeris
     n_orbits = int(epoch.max() - e0) + 1
 
     if periods is None:

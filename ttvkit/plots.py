@@ -227,9 +227,10 @@ def perturber_map_figure(pmap) -> Figure:
         if "rv_limit_mass" in s.colnames:
             rv = np.asarray(s["rv_limit_mass"].value)
             ax.loglog(ratio, rv, "--", color="k", lw=1.0, label="RV limit (3× RV scatter over the baseline)")
-        good = ok & (gain >= 1) & (best > 0)
-        sc = ax.scatter(ratio[good], best[good], c=gain[good], s=10, cmap="viridis", marker="o", zorder=3,
-                        label="best-fitting mass (colour: χ² gain)")
+        good = ok & (gain >= pmap.delta_chi2) & (best > 0)
+        sc = ax.scatter(ratio[good], best[good], c=gain[good], s=12, cmap="viridis", marker="o", zorder=3,
+                        edgecolors="k", linewidths=0.3,
+                        label=f"best-fitting mass where it gains χ² > {pmap.delta_chi2:g} (colour: gain)")
         if np.any(good):
             fig.colorbar(sc, ax=ax, label="χ² gain over a constant period")
         unstable = ~stable

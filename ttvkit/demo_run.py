@@ -17,11 +17,12 @@ from .demo import PLANET_NAME, build_demo_scenario, target
 __all__ = ["run_demo"]
 
 
-#: The demo's perturber map: 80 periods (2 packed on each side of each
-#: resonance) x 2 phases, far fewer than the command's default 2000 points,
-#: so the demo stays within about two minutes; ``ttvkit perturbers`` runs
-#: the full grid.
+#: The demo's perturber map: outer perturbers only (1.3-10x; inner ones
+#: need a step of a sixteenth of their own short period and cost most of
+#: the full map's time), 80 periods x 2 phases, so the demo stays within a
+#: few minutes; ``ttvkit perturbers`` runs the full 0.3-10x grid.
 DEMO_MAP_PERIODS = 80
+DEMO_MAP_RANGE = (1.3, 10.0)
 
 
 def run_demo(out: "str | Path", force: bool = False, quiet: bool = False, sampled: bool = True,
@@ -97,8 +98,10 @@ def run_demo(out: "str | Path", force: bool = False, quiet: bool = False, sample
         if perturbers:
             from .perturbers import perturber_periods
 
-            options = {"periods": perturber_periods(system.orbit.period, n=DEMO_MAP_PERIODS, resonance_points=2),
-                       "n_phases": 2}
+            options = {"periods": perturber_periods(system.orbit.period, *DEMO_MAP_RANGE, n=DEMO_MAP_PERIODS,
+                                                     resonance_points=2), "n_phases": 2}
+            say(f"demo: mapping outer perturbers ({DEMO_MAP_RANGE[0]}-{DEMO_MAP_RANGE[1]:g}x the period, "
+                f"{DEMO_MAP_PERIODS} periods x 2 phases); 'ttvkit perturbers' maps 0.3-10x")
         diagnosis, notes, report = run_diagnosis(table, system, stage / "diagnosis", relabel=relabel,
                                                  sampled=sampled, progress=progress, say=say,
                                                  perturber_options=options)

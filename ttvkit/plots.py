@@ -242,6 +242,11 @@ def perturber_map_figure(pmap) -> Figure:
             for x in (r, 1 / r):
                 if ratio.min() <= x <= ratio.max():
                     ax.axvline(x, color="0.6", lw=0.5, ls=":", zorder=0)
+        from matplotlib.ticker import FuncFormatter, NullFormatter
+
+        ax.xaxis.set_major_formatter(FuncFormatter(lambda x, _: f"{x:g}"))
+        ax.xaxis.set_minor_formatter(NullFormatter())
+        ax.set_xticks([t for t in (0.3, 0.5, 1, 1.5, 2, 3, 5, 10) if 0.99 * ratio.min() <= t <= 1.01 * ratio.max()])
         ax.set_xlabel("perturber period / transiting planet's period")
         ax.set_ylabel("perturber mass (Earth masses)")
         if np.any(ok):

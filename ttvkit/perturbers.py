@@ -412,6 +412,7 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     grid["delta_chi2_best"] = np.where(ok, gain_best, 0.0)
     grid["rv_semi_amplitude"] = k.to(u.m / u.s)
     grid["rv_seen"] = seen
+    grid["rv_seen"].description = "1: RVs would already show it; 0: they would not; -1: no RV limits given"
     grid["hill_stable"] = stable
     grid["integrated"] = ok
     grid["largest_mass_is_lower_bound"] = ok & capped
@@ -439,6 +440,7 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     summary["delta_chi2_best"] = np.array(cols[3])
     summary["rv_semi_amplitude"] = np.array(cols[4]) * u.m / u.s
     summary["rv_seen"] = np.array(cols[5], int)
+    summary["rv_seen"].description = grid["rv_seen"].description
     summary["hill_stable"] = np.array(cols[6], bool)
     summary["integrated"] = np.array(cols[7], bool)
     if rv_limit is not None:
@@ -449,6 +451,5 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
              else "no integrated point became unbound",
              f"{int(linear_only.sum())} points became unbound at their mass limit and keep the linear "
              f"estimate" if np.any(linear_only) else "every point was re-integrated at its mass limit",
-             f"{int((~mask).sum())} non-transit rows were left out" if np.any(~mask) else "all rows are transits",
-             "rv_seen: 1 seen, 0 not seen, -1 no RV limits"]
+             f"{int((~mask).sum())} non-transit rows were left out" if np.any(~mask) else "all rows are transits"]
     return PerturberMap(grid, summary, chi2_const, delta_chi2, n, p_transit * u.day, rv_limit, notes)

@@ -123,9 +123,11 @@ def _perturber_section(pmap) -> str:
         text.append(f"<p>Tightest timing limit on a stable, RV-silent perturber: below "
                     f"{lo['largest_mass'].to_value(u.Mearth):.3g} Earth masses at "
                     f"{float(lo['period_ratio']):.3f}× the period.</p>")
-    text.append("<p>" + _e("; ".join(pmap.notes)) + ". The map assumes coplanar orbits, a circular "
-                "perturber and TTVs linear in its mass; it screens where a planet could hide, it does not "
-                "detect one.</p>")
+    text.append("<p>" + _e("; ".join(pmap.notes)) + ". The map assumes coplanar orbits and a circular "
+                "perturber, and interpolates each point's transit-time response between two integrations (at "
+                "1 Earth mass and at the linear estimate of the mass limit); limits of a few Earth masses or "
+                "less right at a resonance rest on that interpolation and are the least certain. It screens "
+                "where a planet could hide; it does not detect one.</p>")
     return "".join(text)
 
 

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
 __all__ = ["add_commands", "run_diagnosis"]
@@ -123,15 +122,9 @@ def _cmd_diagnose(args) -> int:
     like = Likelihood("student-t" if args.robust else "gaussian", jitter=args.jitter)
     perturber_options = None
     if args.perturbers:
-        import astropy.units as u
-        import numpy as np
-
         from .cli_perturbers import map_options
 
-        period = system.orbit.period
-        if period is None:
-            period = float(np.polyfit(table.epoch, table.time, 1)[0]) * u.day
-        perturber_options = map_options(args, period)
+        perturber_options = map_options(args, system, table)
     try:
         diagnosis, notes, paths = run_diagnosis(
             table, system, args.out, args.force, args.relabel, args.exclude_source, not args.no_sample,

@@ -39,9 +39,16 @@ def add_map_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--workers", type=int, help="processes (default: all cores)")
 
 
-def map_options(args, transit_period) -> dict:
-    """Keyword arguments of :func:`ttvkit.perturbers.map_perturbers` from parsed options."""
+def map_options(args, system, table) -> dict:
+    """Keyword arguments of :func:`ttvkit.perturbers.map_perturbers` from parsed options.
+
+    The grid is scaled to the system's period, or to a line fitted to the
+    table when the system file gives none.
+    """
     from concurrent.futures import ProcessPoolExecutor
+
+    import astropy.units as u
+    import numpy as np
 
     from .errors import InputError
     from .perturbers import perturber_periods
@@ -58,6 +65,9 @@ def map_options(args, transit_period) -> dict:
         raise InputError("--perturber-eccentricity must be in [0, 0.9)")
     if args.delta_chi2 <= 0:
         raise InputError("--delta-chi2 must be positive")
+    transit_period = system.orbit.period
+    if transit_period is None:
+        transit_period = float(np.polyfit(table.epoch, table.time, 1)[0]) * u.day
     options = {"periods": perturber_periods(transit_period, low, high, args.periods), "n_phases": args.phases,
                "eccentricity": args.perturber_eccentricity, "delta_chi2": args.delta_chi2}
     if args.workers is not None:
@@ -88,8 +98,6 @@ def add_commands(sub) -> None:
 
 
 def _cmd_perturbers(args) -> int:
-    import astropy.units as u
-
     from ._outdir import staged_folder
     from .cli import read_table_from_args
     from .perturbers import map_perturbers
@@ -98,12 +106,7 @@ def _cmd_perturbers(args) -> int:
 
     system = System.from_toml(args.system)
     table = read_table_from_args(args)
-    period = system.orbit.period
-    if period is None:
-        import numpy as np
-
-        period = float(np.polyfit(table.epoch, table.time, 1)[0]) * u.day
-    options = map_options(args, period)
+    options = map_options(args, system, table)
     executor = options.get("executor")
     try:
         with staged_folder(args.out, args.force) as stage:

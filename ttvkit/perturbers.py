@@ -51,6 +51,7 @@ import numpy as np
 
 from .errors import InputError
 from .physics import nbody
+from .physics.companions import hill_stable, rv_change_over_baseline
 from .physics.kepler import radial_velocity_semi_amplitude
 from .physics.system import System
 from .timing import TimingTable
@@ -296,13 +297,17 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     t_end = n_orbits * p_transit + 0.5 * p_transit - 0.25 * p_transit
 
     # Points whose orbits cross or that are Hill-unstable even at the reference mass are not integrated.
-    a_t = p_transit ** (2 / 3)
-    a_p = pp ** (2 / 3)
+    au_t, au_p = (((m_star + m_planet) * (x / 365.25) ** 2) ** (1 / 3) * u.AU for x in (p_transit, pp))
+    a_t, a_p = au_t.value, au_p.value
     apo_in = np.where(pp < p_transit, a_p * (1 + eccentricity), a_t * (1 + e_planet))
     peri_out = np.where(pp < p_transit, a_t * (1 - e_planet), a_p * (1 - eccentricity))
     integrable = apo_in < peri_out
-    r_h_ref = ((m_planet + m_ref) / (3 * m_star)) ** (1 / 3) * (a_t + a_p) / 2
-    integrable &= np.abs(a_p - a_t) > 2 * np.sqrt(3) * r_h_ref
+
+    def stable_with(mass):
+        """Gladman (1993) Hill stability of the pair with perturbers of ``mass`` (M☉)."""
+        return hill_stable(m_star * u.Msun, m_planet * u.Msun, au_t, mass * u.Msun, au_p)
+
+    integrable &= stable_with(m_ref)
 
     todo = np.nonzero(integrable)[0]
     # inner perturbers need twice the steps per (their) orbit: at P/8 an inner
@@ -392,16 +397,11 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     seen = np.full(n, -1, int)
     rv_limit = None
     if rv.scatter is not None and rv.baseline is not None:
-        phase = np.minimum(np.pi * (rv.baseline.to_value(u.day) / pp), np.pi / 2)
-        change = 2 * k.to_value(u.m / u.s) * np.sin(phase)
-        seen = (change > 3 * rv.scatter.to_value(u.m / u.s)).astype(int)
-        unit_k = radial_velocity_semi_amplitude(1 * u.Mearth, m_star * u.Msun, periods * u.day,
-                                                eccentricity).to_value(u.m / u.s)
-        phase_p = np.minimum(np.pi * (rv.baseline.to_value(u.day) / periods), np.pi / 2)
-        rv_limit = 3 * rv.scatter.to_value(u.m / u.s) / (2 * unit_k * np.sin(phase_p)) * u.Mearth
-    mass_hi = np.nan_to_num(largest_mass.to_value(u.Msun))
-    r_h = ((m_planet + mass_hi) / (3 * m_star)) ** (1 / 3) * (a_t + a_p) / 2
-    stable = integrable & (np.abs(a_p - a_t) > 2 * np.sqrt(3) * r_h)
+        seen = (rv_change_over_baseline(k, pp * u.day, rv.baseline) > 3 * rv.scatter).astype(int)
+        unit_k = radial_velocity_semi_amplitude(1 * u.Mearth, m_star * u.Msun, periods * u.day, eccentricity)
+        rv_limit = (3 * rv.scatter / rv_change_over_baseline(unit_k, periods * u.day, rv.baseline)).decompose().value \
+            * u.Mearth
+    stable = integrable & stable_with(np.nan_to_num(largest_mass.to_value(u.Msun)))
 
     grid = QTable()
     grid["period"] = pp * u.day

@@ -36,7 +36,7 @@ from .system import System
 
 __all__ = ["projected_orbit_size", "mass_function", "minimum_companion_mass",
            "light_time_companion", "CompanionCheck", "romer_decay_rate", "romer_acceleration",
-           "hill_stable", "mutual_hill_separation"]
+           "hill_stable", "mutual_hill_separation", "rv_change_over_baseline"]
 
 
 def projected_orbit_size(light_time_amplitude) -> u.Quantity:
@@ -109,8 +109,7 @@ def light_time_companion(system: System, light_time_amplitude, period,
     seen = None
     reason = "no RV limits given: cannot say whether radial velocities would show it"
     if rv.scatter is not None and rv.baseline is not None:
-        phase = min(np.pi * float((rv.baseline / p).decompose()), np.pi / 2)
-        change = (2 * k * np.sin(phase)).to(u.m / u.s)
+        change = rv_change_over_baseline(k, p, rv.baseline)
         limit = 3 * rv.scatter
         seen = bool(change > limit)
         reason = (f"over the {rv.baseline.to(u.yr):.3g} RV baseline it would change the host's "
@@ -138,15 +137,24 @@ def romer_acceleration(period, decay_rate) -> u.Quantity:
     return (const.c * rate / p).to(u.m / u.s / u.day)
 
 
-def mutual_hill_separation(star_mass, mass_1, a_1, mass_2, a_2) -> float:
-    """(a₂ − a₁) / R_H,mutual (Gladman 1993)."""
+def rv_change_over_baseline(semi_amplitude, period, baseline) -> u.Quantity:
+    """Largest RV change over a baseline, 2K sin(min(πB/P, π/2)) (circular-orbit estimate; arrays welcome)."""
+    phase = np.minimum(np.pi * (u.Quantity(baseline, u.day) / u.Quantity(period, u.day)).decompose().value,
+                       np.pi / 2)
+    return (2 * u.Quantity(semi_amplitude, u.m / u.s) * np.sin(phase)).to(u.m / u.s)
+
+
+def mutual_hill_separation(star_mass, mass_1, a_1, mass_2, a_2):
+    """(a₂ − a₁) / R_H,mutual (Gladman 1993): a float, or an array for array inputs."""
     ms = u.Quantity(star_mass, u.Msun)
     m1, m2 = u.Quantity(mass_1, u.Mjup), u.Quantity(mass_2, u.Mjup)
     a1, a2 = u.Quantity(a_1, u.AU), u.Quantity(a_2, u.AU)
     r_h = ((m1 + m2) / (3 * ms)) ** (1 / 3) * (a1 + a2) / 2
-    return float((abs(a2 - a1) / r_h).decompose())
+    value = (abs(a2 - a1) / r_h).decompose().value
+    return float(value) if np.ndim(value) == 0 else value
 
 
-def hill_stable(star_mass, mass_1, a_1, mass_2, a_2) -> bool:
-    """Gladman (1993) criterion for circular orbits: separation > 2√3 mutual Hill radii."""
-    return mutual_hill_separation(star_mass, mass_1, a_1, mass_2, a_2) > 2 * np.sqrt(3)
+def hill_stable(star_mass, mass_1, a_1, mass_2, a_2):
+    """Gladman (1993) criterion for circular orbits: separation > 2√3 mutual Hill radii (bool or bool array)."""
+    stable = np.asarray(mutual_hill_separation(star_mass, mass_1, a_1, mass_2, a_2)) > 2 * np.sqrt(3)
+    return bool(stable) if stable.ndim == 0 else stable

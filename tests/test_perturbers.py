@@ -196,7 +196,7 @@ def test_diagnosis_carries_the_map_into_report_and_json(tmp_path):
 
 
 def test_map_steps_agree_with_dop853_for_an_inner_perturber():
-    # The map's step for an inner perturber (P_inner/16) against scipy's
+    # The map's step for an inner perturber (P_inner/20) against scipy's
     # DOP853 (rtol 1e-12): a 100-Earth-mass planet at 1.2 d inside a 3-d
     # Jupiter; the Jupiter's transit times agree to 1% of its 8-s TTV.
     from ttvkit.perturbers import MAP_STEPS_PER_ORBIT
@@ -207,7 +207,7 @@ def test_map_steps_agree_with_dop853_for_an_inner_perturber():
     args = (m, np.array([[P, 1.2]]), z, np.array([[np.pi / 2, 0.0]]), np.full((1, 2), np.pi / 2), z,
             np.array([[-np.pi, 0.0]]))
     ref = nbody.reference_transit_times(*args, t_end=480.0)[0][0]
-    fast = nbody.transit_times(*args, t_end=480.0, dt=1.2 / (2 * MAP_STEPS_PER_ORBIT), planets=0)[0, 0]
+    fast = nbody.transit_times(*args, t_end=480.0, dt=1.2 / MAP_STEPS_PER_ORBIT, planets=0)[0, 0]
     fast = fast[np.isfinite(fast)]
     n = np.arange(ref.size)
     ttv = ref - np.polyval(np.polyfit(n, ref, 1), n)
@@ -216,17 +216,16 @@ def test_map_steps_agree_with_dop853_for_an_inner_perturber():
 
 
 def test_map_is_converged_in_step(recovered):
-    # Five times the steps per orbit moves most mass limits by < 2% for the
-    # outer perturbers of the recovery test (measured: 19 of 24 points).  The
-    # rest (measured up to a factor 7, at limits of 1-3 Earth masses near
-    # 7:4) are points where chi2(m) is far from the two-template model, so
-    # its threshold crossing is unstable: a known weakness, reported.
+    # Twice the steps per orbit (P/40) moves every mass limit of the
+    # recovery test's first 24 points by < 1% (measured: 0.2% at most).
+    # At the former P/8 some moved by factors up to 7: the step, not the
+    # two-template model, was what made them unstable.
     from ttvkit import perturbers
 
     table, pmap = recovered
     saved = perturbers.MAP_STEPS_PER_ORBIT
     try:
-        perturbers.MAP_STEPS_PER_ORBIT = 40
+        perturbers.MAP_STEPS_PER_ORBIT = 2 * saved
         fine = map_perturbers(table, make_system(), periods=pmap.summary["period"][:6], n_phases=4,
                               progress=False, executor=ThreadPoolExecutor(2))
     finally:
@@ -234,8 +233,5 @@ def test_map_is_converged_in_step(recovered):
     a = np.asarray(pmap.grid["largest_mass"].value)[:24]
     b = np.asarray(fine.grid["largest_mass"].value)
     ok = np.isfinite(a) & np.isfinite(b)
-    assert ok.sum() >= 20
-    close = np.abs(a[ok] / b[ok] - 1) < 0.02
-    assert close.mean() >= 0.75
-    # the injected signal's own point is among the stable ones
-    assert a[1] == pytest.approx(b[1], rel=0.02)   # 2.05x (first in the input order), phase pi/2
+    assert ok.sum() == 24
+    np.testing.assert_allclose(a, b, rtol=0.01)

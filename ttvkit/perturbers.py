@@ -61,11 +61,12 @@ __all__ = ["perturber_periods", "map_perturbers", "PerturberMap", "RESONANCES"]
 #: Resonances (outer:inner period ratios) the default grid packs points around.
 RESONANCES = (2.0, 1.5, 4 / 3, 3.0, 5 / 3)
 
-#: Steps per inner orbit in the map's integrations (twice this for inner
-#: perturbers).  Measured against P/40 on the tests' injected system: mass
-#: limits within 1% for outer perturbers from 1.6x to 7x; and against
-#: DOP853 for a 1.2-d perturber inside a 3-d Jupiter.
-MAP_STEPS_PER_ORBIT = 8
+#: Steps per orbit of the inner planet of each pair in the map's integrations
+#: (the engine's P/20, shortened for close pairs).  Measured on the tests'
+#: injected system: mass limits at P/20 within 0.2% of P/40 at all 24
+#: points; at P/8 some moved by factors up to 7 (near 7:4 and for inner
+#: perturbers), so the compiled engine's speed is spent on the step.
+MAP_STEPS_PER_ORBIT = 20
 
 
 def perturber_periods(transit_period, low: float = 0.3, high: float = 10.0, n: int = 500,
@@ -182,33 +183,17 @@ class PerturberMap:
 
 def _integrate(job):
     """One chunk of grid points: transit times of the transiting planet (picklable for processes)."""
-    masses, period, ecc, omega, inc, node, mean, t_end, dt, k = job
+    masses, period, ecc, omega, inc, node, mean, t_end, dt, k, epochs = job
+    # one thread per worker: the executor already spreads chunks over the cores
     return nbody.transit_times(masses, period, ecc, omega, inc, node, mean, t_end, dt=dt, planets=0,
-                               max_transits=k)[:, 0]
+                               max_transits=k, epochs=epochs, threads=False)[:, 0]
 
 
-def _group_by_step(index, step, workers: int, max_chunk: int):
-    """Chunks of grid points sharing a step, costliest first.
-
-    The engine's cost is per step (numpy's per-call overhead dominates up
-    to a few hundred systems), and a chunk runs at its smallest step, so
-    points are grouped by step within factors of 1.5, and each group is
-    split into at least ``workers`` chunks of at most ``max_chunk`` points.
-    """
-    order = np.argsort(step)
-    index, step = index[order], step[order]
-    groups, start = [], 0
-    for i in range(1, index.size + 1):
-        if i == index.size or step[i] > 1.5 * step[start]:
-            groups.append((index[start:i], float(step[start])))
-            start = i
-    chunks = []
-    for members, h in groups:
-        pieces = max(workers, int(np.ceil(members.size / max_chunk)))
-        for piece in np.array_split(members, min(pieces, members.size)):
-            chunks.append((piece, h, piece.size / h))
-    chunks.sort(key=lambda c: -1 / c[1])                # most steps first, for the pool's balance
-    return [c[0] for c in chunks], [c[1] for c in chunks]
+def _chunks(index, cost, n_chunks: int):
+    """Split grid points into chunks of about equal cost (dealt out in order of cost)."""
+    order = index[np.argsort(-cost)]
+    n_chunks = max(1, min(n_chunks, order.size))
+    return [order[j::n_chunks] for j in range(n_chunks)]
 
 
 def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: int = 4,
@@ -310,12 +295,10 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     integrable &= stable_with(m_ref)
 
     todo = np.nonzero(integrable)[0]
-    # inner perturbers need twice the steps per (their) orbit: at P/8 an inner
-    # 1-Earth-mass perturber's template was 0.67 s off DOP853 against a 0.04 s
-    # signal, at P/16 exact (measured); outer ones agree within 1% at P/8
-    per_orbit = np.where(pp[todo] < p_transit, 2 * MAP_STEPS_PER_ORBIT, MAP_STEPS_PER_ORBIT)
-    step = nbody.default_step(period[todo], ecc[todo]) * nbody.STEPS_PER_ORBIT / per_orbit
-    chunks, steps = _group_by_step(todo, step, os.cpu_count() or 1, max_chunk)
+    step = np.full(n, np.nan)
+    step[todo] = nbody.default_step(period[todo], ecc[todo]) * nbody.STEPS_PER_ORBIT / MAP_STEPS_PER_ORBIT
+    workers = os.cpu_count() or 1
+    chunks = _chunks(todo, 1 / step[todo], max(4 * workers, int(np.ceil(todo.size / max_chunk))))
     idx = epoch - e0
     q, _ = np.linalg.qr(design * wts[:, None])
 
@@ -329,12 +312,12 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     if executor is None:
         own_pool = executor = ProcessPoolExecutor(max_workers=os.cpu_count() or 1)
 
-    def run_pass(perturber_mass, label, refine):
+    def run_pass(perturber_mass, label):
         """Projected, weighted templates per unit mass of every integrable point at these masses."""
         m = masses.copy()
         m[:, 2] = perturber_mass
-        jobs = [(m[c], period[c], ecc[c], omega[c], inc[c], node[c], mean[c], t_end, h * refine, n_orbits + 2)
-                for c, h in zip(chunks, steps)]
+        jobs = [(m[c], period[c], ecc[c], omega[c], inc[c], node[c], mean[c], t_end, step[c], n_orbits + 2,
+                 idx) for c in chunks]
         results = list(tqdm(executor.map(_integrate, jobs), total=len(jobs), desc=f"perturber map ({label})",
                             unit="chunk", disable=not progress))
         times = np.full((n, n_orbits + 2), np.nan)
@@ -348,7 +331,7 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     try:
         # pass 1: the linear estimate from a reference-mass template
         m1 = np.full(n, m_ref)
-        u1, ok = run_pass(m1, "reference mass", 1.0)
+        u1, ok = run_pass(m1, "reference mass")
         dd = np.einsum("ij,ij->i", u1, u1)
         dy = u1 @ y_res
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -360,7 +343,7 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
         # drifts): integrate again at the linear estimate of the largest
         # mass and interpolate the template per unit mass between the two.
         m2 = np.clip(np.nan_to_num(lin_max, nan=m_ref), 2 * m_ref, 0.02 * m_star)
-        u2, ok2 = run_pass(m2, "at the mass limit", 1.0)
+        u2, ok2 = run_pass(m2, "at the mass limit")
     finally:
         if own_pool is not None:
             own_pool.shutdown()

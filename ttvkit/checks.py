@@ -188,23 +188,36 @@ def light_time_checks(params: dict, derived: dict, system) -> list[Check]:
 
 def resonance_checks(params: dict, derived: dict, system, inside: bool = False) -> list[Check]:
     """Hill stability and RV visibility of the implied perturber."""
-    out = []
     if "perturber_mass" not in derived:
         return [Check("perturber mass", None, None, "", "untested", "no star mass: the perturber mass is unknown")]
     mass = derived["perturber_mass"]["value"] * u.Mjup
-    p_pert = params["perturber_period"]["value"] * u.day
-    out.append(Check("perturber mass", mass.to_value(u.Mjup), None, "Mjup", "note",
-                     f"{mass.to(u.Mearth):.3g} for zero free eccentricity (Lithwick et al. 2012)", False))
+    note = f"{mass.to(u.Mearth):.3g} for zero free eccentricity (Lithwick et al. 2012)"
+    return perturber_checks(mass, params["perturber_period"]["value"] * u.day, system, note)
+
+
+def nbody_perturber_checks(params: dict, derived: dict, system) -> list[Check]:
+    """Hill stability and RV visibility of the N-body perturber at its fitted mass and period."""
+    mass = params["perturber_mass"]["value"] * u.Mearth
+    e = derived["perturber_eccentricity"]["value"]
+    return perturber_checks(mass, params["perturber_period"]["value"] * u.day, system,
+                            f"{mass:.3g} from the N-body fit (e′ = {e:.2f})", eccentricity=e)
+
+
+def perturber_checks(mass, p_pert, system, note: str, eccentricity: float = 0.0) -> list[Check]:
+    """Hill stability (Gladman 1993) and RV visibility of a perturbing planet of ``mass`` at ``p_pert``."""
+    out = [Check("perturber mass", mass.to_value(u.Mjup), None, "Mjup", "note", note, False)]
     try:
         star = system.star.need("mass", "Hill stability")
         planet = system.companion.need("mass", "Hill stability")
         a1 = system.semi_major_axis
         a2 = a1 * float((p_pert / system.orbit.period).decompose()) ** (2 / 3)
         stable = hill_stable(star, planet, a1, mass, a2)
+        caveat = " (a circular-orbit criterion)" if eccentricity > 0.05 else ""
         out.append(Check("Hill stability", float(abs(a2 - a1).to_value(u.AU)), None, "AU",
                          "pass" if stable else "fail",
-                         f"orbits {a1:.3g} and {a2:.3g} are {'' if stable else 'not '}Hill stable (Gladman 1993)"))
-        k = radial_velocity_semi_amplitude(mass, star, p_pert)
+                         f"orbits {a1:.3g} and {a2:.3g} are {'' if stable else 'not '}Hill stable "
+                         f"(Gladman 1993){caveat}"))
+        k = radial_velocity_semi_amplitude(mass, star, p_pert, eccentricity)
         rv = system.radial_velocity
         if rv.scatter is not None:
             seen = bool(k > 3 * rv.scatter)
@@ -237,4 +250,6 @@ def checks_for(hypothesis, params: dict, derived: dict, system) -> list[Check]:
             out += light_time_checks(params, derived, system)
         elif key.startswith("near-resonant-perturber"):
             out += resonance_checks(params, derived, system, getattr(term, "inside", False))
+        elif key == "n-body-perturber":
+            out += nbody_perturber_checks(params, derived, system)
     return out

@@ -52,6 +52,10 @@ def add_commands(sub) -> None:
     p.add_argument("--jitter", action="store_true", help="fit an extra white timing noise")
     p.add_argument("--no-progress", action="store_true", help="no progress bars")
     p.add_argument("--json", action="store_true", help="print diagnosis.json's content on stdout")
+    p.add_argument("--fit-perturber", action="store_true",
+                   help="also fit the n-body-perturber hypothesis (a second planet integrated directly; "
+                        "seeded from the map with --perturbers). Slow: minutes, far longer sampled "
+                        "(--no-sample or fewer --steps)")
     p.add_argument("--perturbers", action="store_true",
                    help="also map the perturbing planets the timing allows (N-body; minutes)")
     from .cli_perturbers import add_map_options
@@ -63,7 +67,7 @@ def add_commands(sub) -> None:
 
 def run_diagnosis(table, system, out, force=False, relabel=(), exclude=(), sampled=True, n_steps=3000,
                   seed=0, years=10.0, precision=None, likelihood=None, progress=True, say=print,
-                  perturber_options: dict | None = None):
+                  perturber_options: dict | None = None, fit_perturber: bool = False):
     """Relabel/exclude sources as asked, diagnose, write the report; returns (diagnosis, notes, paths)."""
     from ._outdir import check_folder
     from .diagnose import diagnose
@@ -87,9 +91,12 @@ def run_diagnosis(table, system, out, force=False, relabel=(), exclude=(), sampl
         f"{'and sampling ' if sampled else ''}every hypothesis")
     if perturber_options is not None:
         say("diagnose: and mapping perturbing planets (N-body; minutes)")
+    if fit_perturber:
+        say("diagnose: and fitting an N-body perturbing planet (slow)")
     diagnosis = diagnose(table, system, sampled=sampled, n_steps=n_steps, seed=seed, progress=progress,
                          forecast_years=years, timing_precision_s=precision, likelihood=likelihood,
-                         perturber_map=perturber_options is not None, perturber_options=perturber_options)
+                         perturber_map=perturber_options is not None, perturber_options=perturber_options,
+                         fit_perturber=fit_perturber)
     paths = write_report(diagnosis, out, force=force, notes=notes)
     return diagnosis, notes, paths
 
@@ -129,7 +136,7 @@ def _cmd_diagnose(args) -> int:
         diagnosis, notes, paths = run_diagnosis(
             table, system, args.out, args.force, args.relabel, args.exclude_source, not args.no_sample,
             args.steps, args.seed, args.years, args.precision, like, not args.no_progress and not args.json, say,
-            perturber_options)
+            perturber_options, args.fit_perturber)
     finally:
         if perturber_options and perturber_options.get("executor") is not None:
             perturber_options["executor"].shutdown()

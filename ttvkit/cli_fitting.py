@@ -12,10 +12,13 @@ examples:
   ttvkit fit times.ecsv --hypothesis orbital-decay
   ttvkit fit times.ecsv --hypothesis sinusoidal-modulation --sample --json
   ttvkit fit times.ecsv --hypothesis orbital-decay+sinusoidal-modulation --robust --jitter
+  ttvkit fit times.ecsv --hypothesis n-body-perturber --system star.toml
 
 hypotheses: constant-period, orbital-decay, apsidal-precession,
 sinusoidal-modulation, light-travel-time, near-resonant-perturber
-(near-resonant-perturber(j=3) or (j=2, inner) for other cases); join
+(near-resonant-perturber(j=3) or (j=2, inner) for other cases),
+n-body-perturber (a second planet integrated directly; needs --system for
+the masses, and takes seconds to minutes per fit, far longer sampled); join
 compatible ones with '+'.  In sinusoidal-modulation the amplitude is the
 O−C semi-amplitude (half the peak-to-peak O−C).
 """
@@ -45,6 +48,8 @@ def _common(p):
                    help="fail if the chain is shorter than 50 autocorrelation times")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
+    p.add_argument("--system", help="system file (TOML): the masses and orbit that derived quantities "
+                                    "and n-body-perturber need")
     _add_table_options(p)
 
 
@@ -79,13 +84,19 @@ def _run(args, hypotheses):
     if args.steps < 100:
         raise InputError("--steps must be at least 100")
     table = read_table_from_args(args)
+    context = None
+    if getattr(args, "system", None):
+        from .diagnose import _context
+        from .physics.system import System
+
+        context = _context(System.from_toml(args.system))
     if len(hypotheses) == 1:
-        result = fit(table, hypotheses[0], _likelihood(args))
+        result = fit(table, hypotheses[0], _likelihood(args), context=context)
         if args.sample:
             result = sample(result, n_steps=args.steps, seed=args.seed, progress=not args.no_progress,
                             require_convergence=args.require_convergence)
         return result
-    return compare(table, hypotheses, _likelihood(args), sampled=args.sample, n_steps=args.steps,
+    return compare(table, hypotheses, _likelihood(args), context=context, sampled=args.sample, n_steps=args.steps,
                    seed=args.seed, progress=not args.no_progress)
 
 

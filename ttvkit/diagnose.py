@@ -146,8 +146,15 @@ def _context(system) -> dict:
     mass = system.star.mass
     if mass is None:
         return {}
-    total = mass + (system.companion.mass if system.companion.mass is not None else 0 * u.Msun)
-    return {"host_mass_msun": float(total.to_value(u.Msun))}
+    planet = system.companion.mass if system.companion.mass is not None else 0 * u.Msun
+    orbit = system.orbit
+    out = {"host_mass_msun": float((mass + planet).to_value(u.Msun)),
+           "star_mass_msun": float(mass.to_value(u.Msun)),
+           "companion_mass_msun": float(planet.to_value(u.Msun)),
+           "eccentricity": float(orbit.eccentricity or 0.0)}
+    if orbit.omega is not None:
+        out["omega_rad"] = float(orbit.omega.to_value(u.rad))
+    return out
 
 
 def _assess(fit, delta_bic, system) -> Assessment:
@@ -175,7 +182,7 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
              seed: int = 0, progress: bool = True, forecast_years: float = 10.0,
              timing_precision_s: float | None = None, likelihood=None, executor=None,
              now: float | None = None, max_steps: int | None = 6000, perturber_map: bool = False,
-             perturber_options: dict | None = None) -> Diagnosis:
+             perturber_options: dict | None = None, fit_perturber: bool = False) -> Diagnosis:
     """Fit every hypothesis and judge each against the data and the physics.
 
     Parameters
@@ -209,6 +216,11 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
         (:func:`ttvkit.perturbers.map_perturbers`; minutes of N-body work).
     perturber_options : dict, optional
         Keyword arguments for :func:`ttvkit.perturbers.map_perturbers`.
+    fit_perturber : bool
+        Also fit (and sample, if ``sampled``) the ``n-body-perturber``
+        hypothesis, seeded from the map's best points when the map is made.
+        Every evaluation is an N-body integration: minutes, and far longer
+        sampled.
 
     Returns
     -------
@@ -225,7 +237,18 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
     suspicions = table.check_standards()
     for s in suspicions:
         notes.append({"kind": "time standard", "message": s.message()})
-    data = TimingData.from_table(table, _context(system))
+    pmap = None
+    if perturber_map:
+        from .perturbers import map_perturbers
+
+        options = {"progress": progress, **(perturber_options or {})}
+        pmap = map_perturbers(table, system, **options)
+    context = _context(system)
+    data = TimingData.from_table(table, context)
+    if fit_perturber and "n-body-perturber" not in hypotheses:
+        hypotheses.append("n-body-perturber")
+        if pmap is not None:
+            data.context["perturber_seeds"] = pmap.seeds(data.t_ref)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", ConvergenceWarning)
         comparison = compare(data, hypotheses, likelihood, sampled=sampled, n_steps=n_steps, seed=seed,
@@ -256,12 +279,10 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
     diagnosis = Diagnosis(table, system, assessments, residual_periodogram(data), forecast, suspicions, notes,
                           settings={"sampled": sampled, "n_steps": n_steps, "seed": seed,
                                     "forecast_years": forecast_years,
-                                    "likelihood": (likelihood.describe() if likelihood else "Gaussian")})
-    if perturber_map:
-        from .perturbers import map_perturbers
-
-        options = {"progress": progress, **(perturber_options or {})}
-        diagnosis.perturbers = map_perturbers(table, system, **options)
+                                    "likelihood": (likelihood.describe() if likelihood else "Gaussian"),
+                                    "fit_perturber": bool(fit_perturber)})
+    if pmap is not None:
+        diagnosis.perturbers = pmap
         diagnosis.settings["perturber_map"] = {k: v for k, v in options.items() if k != "executor"
                                                and isinstance(v, (int, float, str, bool))}
     diagnosis.curves = _curves(diagnosis)

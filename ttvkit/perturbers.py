@@ -132,6 +132,34 @@ class PerturberMap:
     transit_period: u.Quantity
     rv_limit_mass: u.Quantity | None
     notes: list = field(default_factory=list)
+    #: BJD_TDB of the integrations' start and the transiting planet's mean
+    #: longitude at its transits (rad): what turns a grid phase into a longitude
+    start_time: float | None = None
+    transit_longitude: float = np.pi / 2
+
+    def seeds(self, t0: float, count: int = 3) -> list[tuple[float, float, float]]:
+        """The ``count`` best points of distinct periods as (period d, mass M⊕, longitude rad).
+
+        The longitude is the perturber's mean longitude minus the transiting
+        planet's at the transit ``t0`` (BJD_TDB), as the ``n-body-perturber``
+        hypothesis defines it; used to seed its fit.
+        """
+        order = np.argsort(-np.asarray(self.grid["delta_chi2_best"]))
+        out, seen = [], set()
+        for i in order:
+            row = self.grid[int(i)]
+            if not row["integrated"] or row["delta_chi2_best"] <= 0 or self.start_time is None:
+                continue
+            period = float(row["period"].to_value(u.day))
+            if period in seen:
+                continue
+            seen.add(period)
+            lam = float(row["phase"].to_value(u.rad)) + 2 * np.pi * (t0 - self.start_time) / period
+            out.append((period, float(row["best_mass"].to_value(u.Mearth)),
+                        float(np.mod(lam - self.transit_longitude, 2 * np.pi))))
+            if len(out) == count:
+                break
+        return out
 
     def best(self) -> dict:
         """The single grid point that explains the timing best."""
@@ -435,4 +463,5 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
              f"{int(linear_only.sum())} points became unbound at their mass limit and keep the linear "
              f"estimate" if np.any(linear_only) else "every point was re-integrated at its mass limit",
              f"{int((~mask).sum())} non-transit rows were left out" if np.any(~mask) else "all rows are transits"]
-    return PerturberMap(grid, summary, chi2_const, delta_chi2, n, p_transit * u.day, rv_limit, notes)
+    return PerturberMap(grid, summary, chi2_const, delta_chi2, n, p_transit * u.day, rv_limit, notes,
+                        start_time=float(coef[0]) - 0.5 * p_transit, transit_longitude=w_planet + m_transit)

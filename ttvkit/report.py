@@ -30,6 +30,13 @@ MODEL_ASSUMPTIONS = {
         "orbits); transit-time variations scale linearly with its mass; the largest allowed mass is where χ² "
         "rises by the threshold above the constant-period fit; Hill stability by Gladman (1993); RV visibility "
         "as for a light-travel-time companion (3× the RV scatter over the baseline)."),
+    "Perturbing planet (N-body fit)": (
+        "The transiting planet and one more planet of fitted mass, period, eccentricity vector and mean "
+        "longitude, integrated directly (the same corrected Wisdom–Holman map); coplanar, edge-on orbits of "
+        "point masses; the transiting planet's eccentricity held at the System's; T0 and P are the mean "
+        "ephemeris (the integration's straight line over the data is removed). The fit starts from the "
+        "map's best points when the map is made, from near-resonant periods and from a coarse grid; another "
+        "mode may exist elsewhere in period. Hill stability after Gladman (1993) for circular orbits."),
     "Activity cycle (Applegate 1992)": (
         "An activity cycle moves angular momentum between the star's interior and an outer shell; the "
         "shell's changed spin changes the star's quadrupole moment and so the orbital period. Core and "

@@ -8,7 +8,10 @@
 * ``light-travel-time``: adds the Irwin (1952) delay of a distant companion;
 * ``near-resonant-perturber``: adds a sinusoid at the super-period
   (Lithwick, Xie & Wu 2012); ``near-resonant-perturber(j=3)`` for other
-  resonances.
+  resonances;
+* ``n-body-perturber``: a second planet of any mass, period, eccentricity
+  and phase, by direct N-body integration (slow: not in the default
+  comparison).
 
 Hypotheses that make sense together are joined with ``+``:
 ``orbital-decay+sinusoidal-modulation`` (one ephemeris term — constant
@@ -26,12 +29,14 @@ from .base import Derived, Hypothesis, Parameter, Term, TimingData
 from .ephemerides import ConstantPeriod, OrbitalDecay
 from .light_time import LightTravelTime
 from .modulation import SinusoidalModulation
+from .nbody_perturber import NBodyPerturber
 from .precession import ApsidalPrecession
 from .resonance import NearResonantPerturber
 
 __all__ = ["Hypothesis", "Term", "Parameter", "Derived", "TimingData", "get_hypothesis",
            "HYPOTHESIS_NAMES", "DEFAULT_COMPARISON", "ConstantPeriod", "OrbitalDecay",
-           "ApsidalPrecession", "SinusoidalModulation", "LightTravelTime", "NearResonantPerturber"]
+           "ApsidalPrecession", "SinusoidalModulation", "LightTravelTime", "NearResonantPerturber",
+           "NBodyPerturber", "SLOW_HYPOTHESES"]
 
 _TERMS = {
     "constant-period": ConstantPeriod,
@@ -40,13 +45,17 @@ _TERMS = {
     "sinusoidal-modulation": SinusoidalModulation,
     "light-travel-time": LightTravelTime,
     "near-resonant-perturber": NearResonantPerturber,
+    "n-body-perturber": NBodyPerturber,
 }
 
 #: The single hypotheses, by name.
 HYPOTHESIS_NAMES = tuple(_TERMS)
 
-#: What ``compare`` fits by default: every hypothesis and the sensible pairs.
-DEFAULT_COMPARISON = HYPOTHESIS_NAMES + ("orbital-decay+sinusoidal-modulation",
+#: Hypotheses whose every evaluation is an N-body integration: fitted when asked.
+SLOW_HYPOTHESES = ("n-body-perturber",)
+
+#: What ``compare`` fits by default: every fast hypothesis and the sensible pairs.
+DEFAULT_COMPARISON = tuple(n for n in HYPOTHESIS_NAMES if n not in SLOW_HYPOTHESES) + ("orbital-decay+sinusoidal-modulation",
                                          "orbital-decay+light-travel-time")
 
 _RESONANCE = re.compile(r"^near-resonant-perturber(?:\((?P<args>[^)]*)\))?$")

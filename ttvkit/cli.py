@@ -114,6 +114,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--progress", action="store_true", help="show the sampler's progress bars")
     p.add_argument("--no-perturbers", action="store_true",
                    help="skip the N-body perturber map (about a minute faster)")
+    p.add_argument("--fit-perturber", action="store_true",
+                   help="also fit and sample the n-body-perturber hypothesis, seeded from the map "
+                        "(a few minutes more)")
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     p.set_defaults(func=_cmd_demo)
 
@@ -210,7 +213,8 @@ def _cmd_demo(args) -> int:
     from .demo_run import run_demo
 
     result = run_demo(args.out, force=args.force, quiet=args.json, sampled=not args.no_sample,
-                      progress=args.progress, perturbers=not args.no_perturbers)
+                      progress=args.progress, perturbers=not args.no_perturbers,
+                      fit_perturber=args.fit_perturber)
     if args.json:
         print(json.dumps(result, indent=2))
     return 0

@@ -86,10 +86,10 @@ def _run(args, hypotheses):
     table = read_table_from_args(args)
     context = None
     if getattr(args, "system", None):
-        from .diagnose import _context
+        from .diagnose import timing_context
         from .physics.system import System
 
-        context = _context(System.from_toml(args.system))
+        context = timing_context(System.from_toml(args.system))
     if len(hypotheses) == 1:
         result = fit(table, hypotheses[0], _likelihood(args), context=context)
         if args.sample:

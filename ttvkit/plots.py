@@ -199,13 +199,15 @@ def corner_figure(diagnosis) -> Figure:
     return fig
 
 
-def perturber_map_figure(pmap) -> Figure:
+def perturber_map_figure(pmap, fitted=None) -> Figure:
     """The mass–period map: allowed and preferred perturber masses over period ratio.
 
     Parameters
     ----------
     pmap : PerturberMap
         From :func:`ttvkit.perturbers.map_perturbers` (or ``Diagnosis.perturbers``).
+    fitted : FitResult, optional
+        An ``n-body-perturber`` fit, drawn as a star with its 1σ errors.
     """
     from .perturbers import RESONANCES
 
@@ -233,6 +235,13 @@ def perturber_map_figure(pmap) -> Figure:
                         label=f"best-fitting mass where it gains χ² > {pmap.delta_chi2:g} (colour: gain)")
         if np.any(good):
             fig.colorbar(sc, ax=ax, label="χ² gain over a constant period")
+        if fitted is not None:
+            p = fitted.to_dict()["parameters"]
+            d = fitted.to_dict()["derived"]
+            r, m = d["period_ratio"], p["perturber_mass"]
+            ax.errorbar([r["value"]], [m["value"]], xerr=[[r["lower"]], [r["upper"]]],
+                        yerr=[[min(m["lower"], 0.9 * m["value"])], [m["upper"]]], fmt="*", ms=9,
+                        color=COLOURS[2], mec="k", mew=0.4, zorder=4, label="fitted N-body perturber (1σ)")
         unstable = ~stable
         if np.any(unstable):
             edges = ratio[unstable]
@@ -263,7 +272,8 @@ def all_figures(diagnosis) -> dict:
                "activity_envelope": envelope_figure(diagnosis), "companion_check": companion_figure(diagnosis),
                "forecast": forecast_figure(diagnosis), "posterior_corner": corner_figure(diagnosis)}
     if getattr(diagnosis, "perturbers", None) is not None:
-        figures["perturber_map"] = perturber_map_figure(diagnosis.perturbers)
+        fitted = next((a.fit for a in diagnosis.assessments if a.name == "n-body-perturber"), None)
+        figures["perturber_map"] = perturber_map_figure(diagnosis.perturbers, fitted)
     return figures
 
 

@@ -42,7 +42,8 @@ from .base import Derived, Parameter, Term
 __all__ = ["NBodyPerturber"]
 
 _MEARTH_PER_MSUN = 332946.0487
-_GRID_RATIOS = np.concatenate([np.geomspace(0.3, 0.8, 8), np.geomspace(1.3, 10.0, 16)])
+#: Periods of the starting grid (times 4 longitudes, one batched integration at 1 Earth mass).
+GRID_PERIODS = 120
 
 
 def _mean_anomaly_at_transit(ecc, omega):
@@ -157,7 +158,11 @@ class NBodyPerturber(Term):
     def guesses(self, data, residuals):
         lo, hi = self.bounds(data)
         period = data.period
-        ratios = list(_GRID_RATIOS[(_GRID_RATIOS > self.min_ratio) & (_GRID_RATIOS < self.max_ratio)])
+        from ..perturbers import perturber_periods
+
+        # the map's kind of grid, coarser: log-spaced plus points packed around the resonances
+        ratios = list(perturber_periods(period, self.min_ratio, self.max_ratio, n=GRID_PERIODS,
+                                        resonance_points=3).value / period)
         for j in (2, 3):     # near-resonant solutions: a super-period P_j on either side of j:j-1 and (j-1):j
             for p_j in candidate_periods(data, residuals, count=2, shortest=5 * period):
                 for sign in (1.0, -1.0):

@@ -18,7 +18,6 @@ import tempfile
 import time
 from pathlib import Path
 
-import astropy.units as u
 
 
 def main(n_periods: int = 500, n_phases: int = 4):

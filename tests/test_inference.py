@@ -4,7 +4,6 @@ All simulations use fixed seeds (tests/simulate.py).
 """
 
 import json
-import warnings
 
 import numpy as np
 import pytest
@@ -12,7 +11,6 @@ import pytest
 from simulate import internal, simulate
 from ttvkit import ConvergenceError
 from ttvkit.cli import main
-from ttvkit.hypotheses import get_hypothesis
 from ttvkit.inference import ConvergenceWarning, compare, fit, sample
 from ttvkit.likelihood import Likelihood
 from ttvkit.periodogram import residual_periodogram

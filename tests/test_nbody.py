@@ -11,8 +11,6 @@ HALF_PI = np.pi / 2
 
 
 def system(periods, masses, ecc=None, omega=None, mean=None, star=1.0):
-    n = len(periods)
-    s = len(periods[0]) if np.ndim(periods[0]) else 1
     P = np.atleast_2d(periods)
     m = np.column_stack([np.full(P.shape[0], star), np.atleast_2d(masses)])
     e = np.zeros_like(P) if ecc is None else np.atleast_2d(ecc)

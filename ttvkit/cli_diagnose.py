@@ -58,7 +58,7 @@ def add_commands(sub) -> None:
                         "(--no-sample or fewer --steps)")
     p.add_argument("--perturber-steps", type=int, default=500,
                    help="sampler steps of the n-body-perturber chain (default 500, not extended; about "
-                        "0.7 s each for 20 years of a 2-d planet on two cores)")
+                        "0.7-1.8 s each for 20 years of a 2-d planet on two cores)")
     p.add_argument("--perturbers", action="store_true",
                    help="also map the perturbing planets the timing allows (N-body; minutes)")
     from .cli_perturbers import add_map_options

@@ -24,7 +24,7 @@ DEMO_MAP_PHASES = 4
 DEMO_MAP_RANGE = (0.3, 10.0)
 
 #: Sampler steps of the demo's n-body-perturber chain when it is asked for
-#: (``--fit-perturber``: about 0.7 s a step on two cores, plus about a minute to fit).
+#: (``--fit-perturber``: 0.7-1.8 s a step on two cores, plus one to two minutes to fit).
 DEMO_PERTURBER_STEPS = 200
 
 

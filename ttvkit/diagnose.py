@@ -233,7 +233,8 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
     perturber_steps : int
         Sampler steps of the ``n-body-perturber`` chain (not extended; a
         short chain is reported as a convergence note).  Measured on the
-        demo (21 years of a 1.87-d planet): 0.7 s per step on two cores.
+        demo (21 years of a 1.87-d planet): 0.7-1.8 s per step on two cores
+        (the longer near a resonance, where the step is shorter).
 
     Returns
     -------

@@ -19,6 +19,8 @@ only counted), which is most of the saving for sparse data.
 
 from __future__ import annotations
 
+import threading
+
 import numpy as np
 from numba import njit, prange
 
@@ -307,6 +309,7 @@ def _batch(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector, fwd_k
 
 _batch_serial = njit(cache=True)(_batch)
 _batch_threads = njit(cache=True, parallel=True)(_batch)
+_PARALLEL = threading.Lock()
 
 
 def integrate(masses, r, v, h, n_steps, wanted, want_epoch, light_time: bool, corrector: bool,
@@ -322,9 +325,17 @@ def integrate(masses, r, v, h, n_steps, wanted, want_epoch, light_time: bool, co
     fv = np.array([x for _, x in forward], float)
     ik = np.array([0 if k == "d" else 1 for k, _ in inverse], np.int64)
     iv = np.array([x for _, x in inverse], float)
-    run = _batch_threads if threads and s > 1 else _batch_serial
-    run(np.ascontiguousarray(masses, float), np.array(r, float), np.array(v, float),
-        np.ascontiguousarray(h, float), np.ascontiguousarray(n_steps, np.int64),
-        np.ascontiguousarray(wanted, np.bool_), np.ascontiguousarray(want_epoch, np.bool_),
-        bool(light_time), bool(corrector), fk, fv, ik, iv, float(kappa), out)
+    args = (np.ascontiguousarray(masses, float), np.array(r, float), np.array(v, float),
+            np.ascontiguousarray(h, float), np.ascontiguousarray(n_steps, np.int64),
+            np.ascontiguousarray(wanted, np.bool_), np.ascontiguousarray(want_epoch, np.bool_),
+            bool(light_time), bool(corrector), fk, fv, ik, iv, float(kappa), out)
+    # numba's default threading layer must not be entered by two Python
+    # threads at once: a second caller runs the serial kernel instead
+    if threads and s > 1 and _PARALLEL.acquire(blocking=False):
+        try:
+            _batch_threads(*args)
+        finally:
+            _PARALLEL.release()
+    else:
+        _batch_serial(*args)
     return out

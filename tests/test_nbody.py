@@ -250,3 +250,17 @@ def test_close_encounter_marks_only_that_system():
     out = transit_times(m, P, e, w, i, node, M, t_end=6000.0, dt=0.2)
     assert np.isfinite(out[1, 0]).sum() > 550
     assert np.all(np.isnan(out[0]))  # the broken system is marked, not mis-timed
+
+
+def test_concurrent_threads_get_the_same_times():
+    # numba's default threading layer is not re-entrant: a second Python
+    # thread must fall back to the serial kernel, not crash or mix results
+    from concurrent.futures import ThreadPoolExecutor
+
+    m, P, e, w, i, node, M = system([[10.0, 20.4], [10.0, 27.0]], [[1e-3, 3e-5], [1e-3, 1e-4]],
+                                    mean=[[0.5, 2.0], [0.0, 1.0]])
+    alone = transit_times(m, P, e, w, i, node, M, t_end=2000.0)
+    with ThreadPoolExecutor(4) as pool:
+        results = list(pool.map(lambda _: transit_times(m, P, e, w, i, node, M, t_end=2000.0), range(8)))
+    for r in results:
+        np.testing.assert_array_equal(r, alone)

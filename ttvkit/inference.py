@@ -77,20 +77,35 @@ def fit(table, hypothesis="constant-period", likelihood: Likelihood | None = Non
                          f"only {data.n} mid-times; it cannot be fitted")
     lo, hi = hyp.bounds(data)
 
+    last = {}
+
     def whitened(theta):
-        return (data.time - hyp.predict(theta, data)) / data.sigma
+        value = (data.time - hyp.predict(theta, data)) / data.sigma
+        last["theta"], last["value"] = np.array(theta, float), value
+        return value
+
+    jac = "2-point"
+    if hyp.expensive:
+        def jac(theta):
+            """Forward differences as scipy's 2-point scheme takes them, all rows in one batched call."""
+            step = np.sqrt(np.finfo(float).eps) * np.maximum(1.0, np.abs(theta))
+            step = np.where(theta + step > hi, -step, step)            # stay inside the bounds
+            rows = theta + np.diag(step)
+            shifted = (data.time - hyp.predict(rows, data)) / data.sigma
+            base = last["value"] if "theta" in last and np.array_equal(last["theta"], theta) else whitened(theta)
+            return ((shifted - base) / step[:, None]).T
 
     # Two stages: a short run from every start, then a full polish of the few
     # best -- most starts lead nowhere and need not be run to convergence.
     trials = []
     for start in hyp.starts(data, limit=max_starts):
-        res = _least_squares(whitened, start, lo, hi, quick=True)
+        res = _least_squares(whitened, start, lo, hi, quick=True, jac=jac)
         if res is not None:
             trials.append(res)
     trials.sort(key=lambda r: r.cost)
     best = None
     for trial in trials[:3]:
-        res = _least_squares(whitened, trial.x, lo, hi, quick=False)
+        res = _least_squares(whitened, trial.x, lo, hi, quick=False, jac=jac)
         if res is not None and (best is None or res.cost < best.cost):
             best = res
     if best is None:
@@ -106,13 +121,13 @@ def fit(table, hypothesis="constant-period", likelihood: Likelihood | None = Non
     return FitResult(hyp, data, theta, cov, log_l, chi2, like, warnings=notes)
 
 
-def _least_squares(func, start, lo, hi, quick: bool):
+def _least_squares(func, start, lo, hi, quick: bool, jac="2-point"):
     try:
         if quick:
-            res = least_squares(func, start, bounds=(lo, hi), x_scale="jac", method="trf",
+            res = least_squares(func, start, jac=jac, bounds=(lo, hi), x_scale="jac", method="trf",
                                 xtol=1e-8, ftol=1e-8, gtol=1e-8, max_nfev=40)
         else:
-            res = least_squares(func, start, bounds=(lo, hi), x_scale="jac", method="trf",
+            res = least_squares(func, start, jac=jac, bounds=(lo, hi), x_scale="jac", method="trf",
                                 xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=2000)
     except ValueError:
         return None

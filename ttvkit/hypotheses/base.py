@@ -137,6 +137,9 @@ class Term(ABC):
     is_ephemeris: bool = False
     #: plain-language statement of the physical model and its assumptions
     assumptions: str = ""
+    #: True when an evaluation is costly (an integration): fits then take
+    #: the Jacobian's rows in one batched evaluation
+    expensive: bool = False
 
     @abstractmethod
     def parameters(self) -> tuple[Parameter, ...]:
@@ -197,6 +200,11 @@ class Hypothesis:
     def parameters(self) -> tuple[Parameter, ...]:
         """All parameters, ephemeris first."""
         return tuple(p for term, _ in self._slices for p in term.parameters())
+
+    @property
+    def expensive(self) -> bool:
+        """True if any term is costly to evaluate (see :attr:`Term.expensive`)."""
+        return any(t.expensive for t, _ in self._slices)
 
     @property
     def assumptions(self) -> str:

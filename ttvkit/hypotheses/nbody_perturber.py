@@ -56,6 +56,7 @@ class NBodyPerturber(Term):
     """Transit-time variations from an N-body integration of the transiting planet and one perturber."""
 
     key = "n-body-perturber"
+    expensive = True
     assumptions = ("A second planet perturbing the transiting one, integrated directly (Wisdom–Holman map "
                    "with a symplectic corrector): two planets, coplanar edge-on orbits, point masses; the "
                    "transiting planet's eccentricity fixed at the System's.")

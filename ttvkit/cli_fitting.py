@@ -85,7 +85,7 @@ def _run(args, hypotheses):
         raise InputError("--steps must be at least 100")
     table = read_table_from_args(args)
     context = None
-    if getattr(args, "system", None):
+    if args.system:
         from .diagnose import timing_context
         from .physics.system import System
 

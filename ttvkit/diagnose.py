@@ -22,7 +22,7 @@ import numpy as np
 from .checks import checks_for
 from .errors import MissingValueError
 from .forecast import Forecast, make_forecast
-from .hypotheses import DEFAULT_COMPARISON, SLOW_HYPOTHESES, TimingData
+from .hypotheses import DEFAULT_COMPARISON, TimingData, get_hypothesis
 from .inference import compare
 from .periodogram import Periodogram, residual_periodogram
 from .results import Comparison
@@ -265,8 +265,8 @@ def diagnose(table, system, hypotheses=DEFAULT_COMPARISON, sampled: bool = True,
             data.context["perturber_seeds"] = pmap.seeds(data.t_ref)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", ConvergenceWarning)
-        fast = [h for h in hypotheses if h not in SLOW_HYPOTHESES]
-        slow = [h for h in hypotheses if h in SLOW_HYPOTHESES]
+        slow = [h for h in hypotheses if get_hypothesis(h).expensive]
+        fast = [h for h in hypotheses if h not in slow]
         comparison = compare(data, fast, likelihood, sampled=sampled, n_steps=n_steps, seed=seed,
                              progress=progress, executor=executor, max_steps=max_steps)
         if slow:   # every evaluation an N-body integration: a chain of its own length, not extended

@@ -144,11 +144,13 @@ class PerturberMap:
         planet's at the transit ``t0`` (BJD_TDB), as the ``n-body-perturber``
         hypothesis defines it; used to seed its fit.
         """
+        if self.start_time is None:
+            return []
         order = np.argsort(-np.asarray(self.grid["delta_chi2_best"]))
         out, seen = [], set()
         for i in order:
             row = self.grid[int(i)]
-            if not row["integrated"] or row["delta_chi2_best"] <= 0 or self.start_time is None:
+            if not row["integrated"] or row["delta_chi2_best"] <= 0:
                 continue
             period = float(row["period"].to_value(u.day))
             if period in seen:
@@ -291,14 +293,8 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
     pp, ph = (x.ravel() for x in np.meshgrid(periods, phases, indexing="ij"))
     n = pp.size
 
-    # the engine's t = 0 is half an orbit before epoch e0's transit; the
-    # transiting planet then transits at mean anomaly such that ω + f = π/2
-    def mean_anomaly_at_transit(ecc, omega):
-        f = np.pi / 2 - omega
-        E = 2 * np.arctan2(np.sqrt(1 - ecc) * np.sin(f / 2), np.sqrt(1 + ecc) * np.cos(f / 2))
-        return E - ecc * np.sin(E)
-
-    m_transit = mean_anomaly_at_transit(e_planet, w_planet)
+    # the engine's t = 0 is half an orbit before epoch e0's transit
+    m_transit = float(nbody.mean_anomaly_at_transit(e_planet, w_planet))
     mean0 = m_transit - 2 * np.pi * 0.5                        # half an orbit before
     masses = np.column_stack([np.full(n, m_star), np.full(n, m_planet), np.full(n, m_ref)])
     period = np.column_stack([np.full(n, p_transit), pp])
@@ -311,10 +307,7 @@ def map_perturbers(table: TimingTable, system: System, periods=None, n_phases: i
 
     # Points whose orbits cross or that are Hill-unstable even at the reference mass are not integrated.
     au_t, au_p = (((m_star + m_planet) * (x / 365.25) ** 2) ** (1 / 3) * u.AU for x in (p_transit, pp))
-    a_t, a_p = au_t.value, au_p.value
-    apo_in = np.where(pp < p_transit, a_p * (1 + eccentricity), a_t * (1 + e_planet))
-    peri_out = np.where(pp < p_transit, a_t * (1 - e_planet), a_p * (1 - eccentricity))
-    integrable = apo_in < peri_out
+    integrable = ~nbody.orbits_overlap(period, ecc)
 
     def stable_with(mass):
         """Gladman (1993) Hill stability of the pair with perturbers of ``mass`` (M☉)."""

@@ -236,9 +236,8 @@ def perturber_map_figure(pmap, fitted=None) -> Figure:
         if np.any(good):
             fig.colorbar(sc, ax=ax, label="χ² gain over a constant period")
         if fitted is not None:
-            p = fitted.to_dict()["parameters"]
-            d = fitted.to_dict()["derived"]
-            r, m = d["period_ratio"], p["perturber_mass"]
+            summary = fitted.to_dict()
+            r, m = summary["derived"]["period_ratio"], summary["parameters"]["perturber_mass"]
             ax.errorbar([r["value"]], [m["value"]], xerr=[[r["lower"]], [r["upper"]]],
                         yerr=[[min(m["lower"], 0.9 * m["value"])], [m["upper"]]], fmt="*", ms=9,
                         color=COLOURS[2], mec="k", mew=0.4, zorder=4, label="fitted N-body perturber (1σ)")

@@ -51,12 +51,12 @@ _TERMS = {
 #: The single hypotheses, by name.
 HYPOTHESIS_NAMES = tuple(_TERMS)
 
-#: Hypotheses whose every evaluation is an N-body integration: fitted when asked.
-SLOW_HYPOTHESES = ("n-body-perturber",)
+#: Hypotheses whose every evaluation is costly (``Term.expensive``: an N-body integration): fitted when asked.
+SLOW_HYPOTHESES = tuple(name for name, term in _TERMS.items() if term.expensive)
 
 #: What ``compare`` fits by default: every fast hypothesis and the sensible pairs.
-DEFAULT_COMPARISON = tuple(n for n in HYPOTHESIS_NAMES if n not in SLOW_HYPOTHESES) + ("orbital-decay+sinusoidal-modulation",
-                                         "orbital-decay+light-travel-time")
+DEFAULT_COMPARISON = tuple(n for n in HYPOTHESIS_NAMES if n not in SLOW_HYPOTHESES) + (
+    "orbital-decay+sinusoidal-modulation", "orbital-decay+light-travel-time")
 
 _RESONANCE = re.compile(r"^near-resonant-perturber(?:\((?P<args>[^)]*)\))?$")
 

@@ -24,8 +24,8 @@ occultations, exact enough for a circular transiting orbit.
 
 Needs the star's mass in the data's context (``star_mass_msun``, or
 ``host_mass_msun`` = star + planet) and uses ``companion_mass_msun``,
-``eccentricity`` and ``omega_rad`` of the transiting planet when given (``ttvkit.diagnose`` fills them from the
-System).  Assumptions: two planets, coplanar and edge-on; point masses, no
+``eccentricity`` and ``omega_rad`` of the transiting planet when given
+(:func:`ttvkit.diagnose.timing_context` fills them from the System).  Assumptions: two planets, coplanar and edge-on; point masses, no
 tides or relativity; the perturber on a fixed Keplerian start; transits are
 minimum sky separations.  Each evaluation is a full integration, so fits
 take seconds to minutes and sampling minutes to hours.
@@ -36,6 +36,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
+from ..physics import nbody
 from ._periodic import candidate_periods
 from .base import Derived, Parameter, Term
 
@@ -44,12 +45,6 @@ __all__ = ["NBodyPerturber"]
 _MEARTH_PER_MSUN = 332946.0487
 #: Periods of the starting grid (times 4 longitudes, one batched integration at 1 Earth mass).
 GRID_PERIODS = 120
-
-
-def _mean_anomaly_at_transit(ecc, omega):
-    f = np.pi / 2 - omega
-    E = 2 * np.arctan2(np.sqrt(1 - ecc) * np.sin(f / 2), np.sqrt(1 + ecc) * np.cos(f / 2))
-    return E - ecc * np.sin(E)
 
 
 class NBodyPerturber(Term):
@@ -101,23 +96,20 @@ class NBodyPerturber(Term):
     # -- the model ----------------------------------------------------------------------------------------
     def _times(self, mass, p_pert, ecosw, esinw, lam, t0, period, data, epochs):
         """N-body transit times (days from t_ref) at integer ``epochs`` for a flat batch; NaN where it fails."""
-        from ..physics import nbody
-
         star, planet, e_t, w_t = self._masses(data)
         s = mass.size
         e_lo, e_hi = int(epochs.min()), int(epochs.max())
         e_p = np.hypot(ecosw, esinw)
         w_p = np.arctan2(esinw, ecosw)
-        m_tr = _mean_anomaly_at_transit(e_t, w_t)
+        m_tr = float(nbody.mean_anomaly_at_transit(e_t, w_t))
         t_start = t0 + period * (e_lo - 0.5)
         lam_start = w_t + m_tr + lam + 2 * np.pi * (t_start - t0) / p_pert
         out = np.full((s, epochs.size), np.nan)
         # skip what cannot be integrated (crossing orbits, bad values) instead of raising
-        a_t, a_p = period ** (2 / 3), p_pert ** (2 / 3)
-        inner_apo = np.where(p_pert < period, a_p * (1 + e_p), a_t * (1 + e_t))
-        outer_peri = np.where(p_pert < period, a_t * (1 - e_t), a_p * (1 - e_p))
         ok = (np.isfinite(mass + p_pert + e_p + lam + t0 + period) & (mass >= 0) & (p_pert > 0) & (e_p < 1)
-              & (period > 0) & (inner_apo < outer_peri))
+              & (period > 0))
+        ok[ok] = ~nbody.orbits_overlap(np.column_stack([period[ok], p_pert[ok]]),
+                                       np.column_stack([np.full(int(ok.sum()), e_t), e_p[ok]]))
         if not np.any(ok):
             return out
         n = int(ok.sum())
@@ -158,9 +150,9 @@ class NBodyPerturber(Term):
     #    and the near-resonant periods, each scaled linearly in mass ------------------------------------
     def guesses(self, data, residuals):
         lo, hi = self.bounds(data)
-        period = data.period
         from ..perturbers import perturber_periods
 
+        period = data.period
         # the map's kind of grid, coarser: log-spaced plus points packed around the resonances
         ratios = list(perturber_periods(period, self.min_ratio, self.max_ratio, n=GRID_PERIODS,
                                         resonance_points=3).value / period)
@@ -201,6 +193,8 @@ class NBodyPerturber(Term):
         return out or [np.array([1.0, 2.1 * period, 0.0, 0.0, 0.0])]
 
     def derived(self, p, data):
+        import astropy.units as u
+
         from ..physics.companions import mutual_hill_separation
 
         star, planet, *_ = self._masses(data)
@@ -208,9 +202,8 @@ class NBodyPerturber(Term):
         ratio = p["perturber_period"][..., 0] / p["P"][..., 0]
         ecc = np.hypot(p["perturber_ecosw"][..., 0], p["perturber_esinw"][..., 0])
         a_t = ((star + planet) * (p["P"][..., 0] / 365.25) ** 2) ** (1 / 3)
-        a_p = a_t * ratio ** (2 / 3)
-        jup = 1047.5654817
-        sep = mutual_hill_separation(star, planet * jup, a_t, mass / _MEARTH_PER_MSUN * jup, a_p)
+        sep = mutual_hill_separation(star * u.Msun, planet * u.Msun, a_t * u.AU, mass * u.Mearth,
+                                     a_t * ratio ** (2 / 3) * u.AU)
         return {
             "period_ratio": Derived(ratio, "", "perturber period / transiting planet period"),
             "perturber_eccentricity": Derived(ecc, "", "e′"),

@@ -99,14 +99,19 @@ def _to_jacobi_accel(acc, m, cum, out):
 
 
 @njit(cache=True)
-def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_j, a, da):
-    """v += h (a + mod·(∂a/∂r)·a): the interaction kick; ``mod`` = κ step² (0 for a plain kick)."""
+def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_p, a, da):
+    """v += h (a + mod·(∂a/∂r)·a): the interaction kick; ``mod`` = κ step² (0 for a plain kick).
+
+    ``work_p`` [pairs, 5] keeps each pair's separation, 1/r² and 1/r³ from
+    the acceleration pass for the Hessian pass.
+    """
     nb = m.shape[0]
     n = nb - 1
     _from_jacobi(r, m, cum, work_x)
     for i in range(nb):
         for k in range(3):
             work_a[i, k] = 0.0
+    q = 0
     for i in range(nb - 1):
         for j in range(i + 1, nb):
             dx = work_x[j, 0] - work_x[i, 0]
@@ -114,6 +119,8 @@ def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_j, a, da):
             dz = work_x[j, 2] - work_x[i, 2]
             inv_r2 = 1.0 / (dx * dx + dy * dy + dz * dz)
             inv_r3 = inv_r2 * np.sqrt(inv_r2)
+            work_p[q, 0], work_p[q, 1], work_p[q, 2], work_p[q, 3], work_p[q, 4] = dx, dy, dz, inv_r2, inv_r3
+            q += 1
             work_a[i, 0] += gm[j] * inv_r3 * dx
             work_a[i, 1] += gm[j] * inv_r3 * dy
             work_a[i, 2] += gm[j] * inv_r3 * dz
@@ -131,13 +138,11 @@ def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_j, a, da):
         for i in range(nb):
             for k in range(3):
                 work_a[i, k] = 0.0
+        q = 0
         for i in range(nb - 1):
             for j in range(i + 1, nb):
-                dx = work_x[j, 0] - work_x[i, 0]
-                dy = work_x[j, 1] - work_x[i, 1]
-                dz = work_x[j, 2] - work_x[i, 2]
-                inv_r2 = 1.0 / (dx * dx + dy * dy + dz * dz)
-                inv_r3 = inv_r2 * np.sqrt(inv_r2)
+                dx, dy, dz, inv_r2, inv_r3 = work_p[q, 0], work_p[q, 1], work_p[q, 2], work_p[q, 3], work_p[q, 4]
+                q += 1
                 ex = work_dx[j, 0] - work_dx[i, 0]
                 ey = work_dx[j, 1] - work_dx[i, 1]
                 ez = work_dx[j, 2] - work_dx[i, 2]
@@ -165,13 +170,13 @@ def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_j, a, da):
 
 
 @njit(cache=True)
-def _apply(kinds, values, h, r, v, m, gm, cum, mu, wx, wa, wdx, wj, a, da):
+def _apply(kinds, values, h, r, v, m, gm, cum, mu, wx, wa, wdx, wp, a, da):
     """A corrector sequence: kinds 0 = drift, 1 = plain kick, by values·h."""
     for q in range(kinds.shape[0]):
         if kinds[q] == 0:
             _drift(r, v, mu, values[q] * h)
         else:
-            _kick(r, v, values[q] * h, 0.0, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+            _kick(r, v, values[q] * h, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
 
 
 @njit(cache=True)
@@ -215,7 +220,7 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
     wv = np.empty((nb, 3))
     wa = np.empty((nb, 3))
     wdx = np.empty((nb, 3))
-    wj = np.empty((n, 3))
+    wp = np.empty((nb * (nb - 1) // 2, 5))
     a = np.empty((n, 3))
     da = np.empty((n, 3))
     r0 = np.empty((n, 3))
@@ -224,14 +229,14 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
     vt = np.empty((n, 3))
     mod = kappa * h * h
     if corrector:
-        _apply(fwd_k, fwd_v, h, r, v, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+        _apply(fwd_k, fwd_v, h, r, v, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
     g_old = np.empty(n)
     count = np.zeros(n, np.int64)
     hit = np.zeros(n, np.bool_)
     tau0 = np.empty(n)
     for p in range(n):
         g_old[p], _ = _g_rel(r, v, m, cum, p, wx, wv)
-    _kick(r, v, 0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+    _kick(r, v, 0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
     for step in range(n_steps):
         r0[:, :] = r
         v0[:, :] = v
@@ -263,13 +268,13 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
                     tau0[p] = h * g_old[p] / (g_old[p] - g_new)     # Newton starts at the linear crossing
                     hits += 1
             g_old[p] = g_new
-        _kick(r, v, h, mod, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+        _kick(r, v, h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
         if hits == 0:
             continue
         # refine from the synchronised start of the step: Newton on a map step of
         # trial length τ with plain kicks (as the numpy engine)
         vs = v0.copy()
-        _kick(r0, vs, -0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+        _kick(r0, vs, -0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
         for p in range(n):
             if not hit[p]:
                 continue
@@ -278,9 +283,9 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
             for _ in range(40):
                 rt[:, :] = r0
                 vt[:, :] = vs
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
                 _drift(rt, vt, mu, tau)
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
                 delta = _newton(rt, vt, m, cum, p, mu_e, wx, wv)
                 tau = min(max(tau - delta, 0.0), h)
                 if not abs(delta) >= 1e-10:
@@ -289,10 +294,10 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
                 # back to real coordinates at the transit, then one more Newton step
                 rt[:, :] = r0
                 vt[:, :] = vs
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
                 _drift(rt, vt, mu, tau)
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
-                _apply(inv_k, inv_v, h, rt, vt, m, gm, cum, mu, wx, wa, wdx, wj, a, da)
+                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+                _apply(inv_k, inv_v, h, rt, vt, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
                 tau = tau - _newton(rt, vt, m, cum, p, mu_e, wx, wv)
             t = step * h + tau
             if light_time:            # the star's barycentric z (wx holds the refined state)

@@ -50,7 +50,7 @@ import numpy as np
 from ..errors import InputError
 
 __all__ = ["GAUSS_G", "elements_to_cartesian", "transit_times", "reference_transit_times", "default_step",
-           "energy", "STEPS_PER_ORBIT"]
+           "energy", "orbits_overlap", "mean_anomaly_at_transit", "STEPS_PER_ORBIT"]
 
 #: G in AU³ / (M☉ d²) (IAU k = 0.01720209895, k²).
 GAUSS_G = 0.01720209895 ** 2
@@ -67,14 +67,30 @@ def _check(masses, period, ecc):
         raise InputError("orbital periods must be positive")
     if np.any((np.asarray(ecc) < 0) | (np.asarray(ecc) >= 1)):
         raise InputError("eccentricities must be in [0, 1): unbound orbits cannot be integrated")
-    p = np.asarray(period, float)
-    e = np.asarray(ecc, float)
-    a = p ** (2 / 3)
-    order = np.argsort(p, axis=1)
-    ps, es, as_ = (np.take_along_axis(x, order, axis=1) for x in (p, e, a))
-    if ps.shape[1] > 1 and np.any(as_[:, :-1] * (1 + es[:, :-1]) >= as_[:, 1:] * (1 - es[:, 1:])):
+    if np.any(orbits_overlap(period, ecc)):
         raise InputError("overlapping orbits: an inner apocentre reaches an outer pericentre")
     return masses
+
+
+def orbits_overlap(period, ecc) -> np.ndarray:
+    """Per system [S]: does an inner apocentre reach the next outer pericentre?
+
+    Semi-major axes scale as P^{2/3} (a common central mass), so periods
+    and eccentricities shaped [S, N] suffice.
+    """
+    p = np.asarray(period, float)
+    e = np.asarray(ecc, float)
+    order = np.argsort(p, axis=1)
+    ps, es = (np.take_along_axis(x, order, axis=1) for x in (p, e))
+    a = ps ** (2 / 3)
+    return np.any(a[:, :-1] * (1 + es[:, :-1]) >= a[:, 1:] * (1 - es[:, 1:]), axis=1)
+
+
+def mean_anomaly_at_transit(ecc, omega):
+    """Mean anomaly at which a planet transits (ω + f = π/2, observer on +z; radians)."""
+    f = np.pi / 2 - np.asarray(omega, float)
+    E = 2 * np.arctan2(np.sqrt(1 - ecc) * np.sin(f / 2), np.sqrt(1 + ecc) * np.cos(f / 2))
+    return E - ecc * np.sin(E)
 
 
 def elements_to_cartesian(mu, period, ecc, omega, inc, node, mean_anomaly):
@@ -419,6 +435,11 @@ def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: fl
     r, v = jac.to_jacobi(x), jac.to_jacobi(u)
     mp = masses[:, 1:]
     k = max_transits or int(np.ceil(t_end / np.min(els[0]))) + 2
+    wanted = np.ones(mp.shape, bool)                      # which planets to time (Jacobi order)
+    if planets is not None:
+        chosen = np.zeros(mp.shape, bool)
+        chosen[:, np.atleast_1d(planets)] = True
+        wanted = np.take_along_axis(chosen, order, axis=1)
     want_epoch = np.ones(k, bool)
     if epochs is not None:
         epochs = np.asarray(epochs, int)
@@ -431,11 +452,6 @@ def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: fl
 
         hs = default_step(els[0], els[1]) if dt is None else np.broadcast_to(np.asarray(dt, float),
                                                                               (masses.shape[0],))
-        wanted = np.ones(masses[:, 1:].shape, bool)
-        if planets is not None:
-            chosen = np.zeros(wanted.shape, bool)
-            chosen[:, np.atleast_1d(planets)] = True
-            wanted = np.take_along_axis(chosen, order, axis=1)
         out = _nbody_compiled.integrate(masses, r, v, hs, np.ceil(t_end / hs).astype(int), wanted, want_epoch,
                                         light_time, corrector, _corrector_ops(False), _corrector_ops(True),
                                         _KAPPA, threads=threads)
@@ -449,11 +465,6 @@ def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: fl
     steps = int(np.ceil(t_end / h))
     out = np.full(mp.shape + (k,), np.nan)
     count = np.zeros(mp.shape, int)
-    wanted = np.ones(mp.shape, bool)
-    if planets is not None:
-        chosen = np.zeros(mp.shape, bool)
-        chosen[:, np.atleast_1d(planets)] = True
-        wanted = np.take_along_axis(chosen, order, axis=1)
 
     def relative(r_, v_):
         """Star-to-planet positions and velocities (the sky plane is x, y)."""

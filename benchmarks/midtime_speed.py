@@ -19,8 +19,8 @@ import tracemalloc
 import batman
 import numpy as np
 
-from ttvkit.lightcurve import Window
-from ttvkit.midtime import TransitShape, WindowModel, fit_mid_time
+from ttvkit.lightcurves.midtime import TransitShape, WindowModel, fit_mid_time
+from ttvkit.lightcurves.reading import Window
 
 SHAPE = TransitShape(period=3.0, radius_ratio=0.1, a_over_rstar=8.0, impact_parameter=0.3, q1=1e-12, q2=0.0)
 N, POINTS, SIGMA = 3000, 200, 1e-3

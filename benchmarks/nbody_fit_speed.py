@@ -22,7 +22,7 @@ import numpy as np
 
 def main(sampler_steps: int = 200):
     from ttvkit.demo import build_demo_scenario, target
-    from ttvkit.diagnose import timing_context
+    from ttvkit.diagnosis import timing_context
     from ttvkit.hypotheses import TimingData, get_hypothesis
     from ttvkit.inference import fit, sample
     from ttvkit.physics.system import System

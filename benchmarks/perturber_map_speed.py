@@ -19,10 +19,10 @@ import time
 from pathlib import Path
 
 
-
 def main(n_periods: int = 500, n_phases: int = 4):
     from ttvkit.demo import build_demo_scenario, target
-    from ttvkit.perturbers import map_perturbers, perturber_periods
+    from ttvkit.diagnosis.perturbers import map_perturbers
+    from ttvkit.physics.resonance import perturber_periods
     from ttvkit.physics.system import System
     from ttvkit.timing import TimingTable
 

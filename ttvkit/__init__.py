@@ -5,15 +5,34 @@ timing drift and test each against the physics of the star and planet.
 See the README and the user guide in ``docs/``.
 """
 
-from . import _offline  # noqa: F401  (no network: switch IERS downloads off first)
-from ._version import __version__
-from .errors import (ConvergenceError, EphemerisError, InputError, MissingValueError,
-                     OutputExistsError, TimeStandardError, TimeStandardWarning, TtvkitError,
-                     TtvkitWarning)
-from .standards_check import StandardSuspicion, source_offsets, suspect_standards
-from .timescales import (bjd_tdb_to_utc, from_bjd_tdb, make_observer, make_target,
-                         parse_standard, to_bjd_tdb)
-from .timing import KINDS, Ephemeris, TimingTable
+from ttvkit import _offline  # noqa: F401  (no network: switch IERS downloads off first)
+from ttvkit._version import __version__
+from ttvkit.errors import (
+                     ConvergenceError,
+                     EphemerisError,
+                     InputError,
+                     MissingValueError,
+                     OutputExistsError,
+                     TimeStandardError,
+                     TimeStandardWarning,
+                     TtvkitError,
+                     TtvkitWarning,
+)
+from ttvkit.timing.ephemeris import KINDS, Ephemeris
+from ttvkit.timing.standards import (
+                     bjd_tdb_to_utc,
+                     from_bjd_tdb,
+                     make_observer,
+                     make_target,
+                     parse_standard,
+                     to_bjd_tdb,
+)
+from ttvkit.timing.standards_check import (
+                     StandardSuspicion,
+                     source_offsets,
+                     suspect_standards,
+)
+from ttvkit.timing.table import TimingTable
 
 __all__ = [
     "__version__",

@@ -17,36 +17,40 @@ Hypotheses that make sense together are joined with ``+``:
 ``orbital-decay+sinusoidal-modulation`` (one ephemeris term — constant
 period, decay or precession — plus any additive terms).  A new hypothesis
 is one small module with a :class:`~ttvkit.hypotheses.base.Term` subclass,
-registered in ``_TERMS`` below.
+which registers itself (``Term.__init_subclass__``) once its module is imported below.
 """
 
 from __future__ import annotations
 
 import re
 
-from ..errors import InputError
-from .base import Derived, Hypothesis, Parameter, Term, TimingData
-from .ephemerides import ConstantPeriod, OrbitalDecay
-from .light_time import LightTravelTime
-from .modulation import SinusoidalModulation
-from .nbody_perturber import NBodyPerturber
-from .precession import ApsidalPrecession
-from .resonance import NearResonantPerturber
+from ttvkit.errors import InputError
+from ttvkit.hypotheses.base import (
+    TERMS,
+    Derived,
+    HostContext,
+    Hypothesis,
+    Parameter,
+    Term,
+    TimingData,
+)
+from ttvkit.hypotheses.ephemerides import ConstantPeriod, OrbitalDecay
+from ttvkit.hypotheses.light_time import LightTravelTime
+from ttvkit.hypotheses.modulation import SinusoidalModulation
+from ttvkit.hypotheses.nbody_perturber import NBodyPerturber
+from ttvkit.hypotheses.precession import ApsidalPrecession
+from ttvkit.hypotheses.resonance import NearResonantPerturber
 
-__all__ = ["Hypothesis", "Term", "Parameter", "Derived", "TimingData", "get_hypothesis",
+__all__ = ["Hypothesis", "Term", "Parameter", "Derived", "TimingData", "HostContext", "get_hypothesis",
            "HYPOTHESIS_NAMES", "DEFAULT_COMPARISON", "ConstantPeriod", "OrbitalDecay",
            "ApsidalPrecession", "SinusoidalModulation", "LightTravelTime", "NearResonantPerturber",
            "NBodyPerturber", "SLOW_HYPOTHESES"]
 
-_TERMS = {
-    "constant-period": ConstantPeriod,
-    "orbital-decay": OrbitalDecay,
-    "apsidal-precession": ApsidalPrecession,
-    "sinusoidal-modulation": SinusoidalModulation,
-    "light-travel-time": LightTravelTime,
-    "near-resonant-perturber": NearResonantPerturber,
-    "n-body-perturber": NBodyPerturber,
-}
+#: The single hypotheses, in the order of the list above (each module's Term registers itself).
+_TERMS = {key: TERMS[key] for key in ("constant-period", "orbital-decay", "apsidal-precession",
+                                      "sinusoidal-modulation", "light-travel-time", "near-resonant-perturber",
+                                      "n-body-perturber")}
+_TERMS.update({key: term for key, term in TERMS.items() if key not in _TERMS})
 
 #: The single hypotheses, by name.
 HYPOTHESIS_NAMES = tuple(_TERMS)

@@ -6,7 +6,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import DAY_S, TimingData
+from ttvkit._linear import weighted_lstsq
+from ttvkit.constants import DAY_S
+from ttvkit.hypotheses.base import TimingData
 
 __all__ = ["period_range", "candidate_periods", "sinusoid_at", "amplitude_limit"]
 
@@ -57,10 +59,9 @@ def sinusoid_at(data: TimingData, residuals: np.ndarray, period: float) -> tuple
     """Weighted linear fit of a·sin + b·cos (+ offset + slope) at ``period``; (a, b) in seconds."""
     t = data.epoch * data.period
     x = data.epoch + data.phase
-    w = 1 / data.sigma
     arg = 2 * np.pi * t / period
     design = np.column_stack([np.ones_like(t), x, np.sin(arg), np.cos(arg)])
-    coef, *_ = np.linalg.lstsq(design * w[:, None], residuals * w, rcond=None)
+    coef = weighted_lstsq(design, residuals, data.sigma)
     return float(coef[2] * DAY_S), float(coef[3] * DAY_S)
 
 

@@ -22,10 +22,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Parameter", "Derived", "TimingData", "Term", "Hypothesis"]
+from ttvkit._linear import weighted_line
 
-DAY_S = 86400.0
+__all__ = ["Parameter", "Derived", "TimingData", "HostContext", "Term", "Hypothesis", "TERMS"]
 
+#: Every Term subclass with a ``key``, by key, in the order their modules define them
+#: (filled by ``Term.__init_subclass__``: a new hypothesis registers itself).
+TERMS: dict = {}
 
 @dataclass(frozen=True)
 class Parameter:
@@ -60,6 +63,63 @@ class Derived:
     description: str
 
 
+@dataclass(frozen=True)
+class HostContext:
+    """What some hypotheses need from the physical system: masses and the transiting orbit's shape.
+
+    Internal units: solar masses and radians.  Build it with
+    :meth:`from_system` from a :class:`~ttvkit.physics.System`; an empty
+    context (no star mass) leaves mass-dependent derived quantities out.
+
+    Attributes
+    ----------
+    star_mass : float or None
+        M☉.
+    companion_mass : float
+        The transiting planet's (or secondary's) mass, M☉ (0 when unknown).
+    eccentricity : float
+        Of the transiting orbit (0 when unknown).
+    omega : float or None
+        Argument of periastron of the transiting orbit, rad.
+    """
+
+    star_mass: float | None = None
+    companion_mass: float = 0.0
+    eccentricity: float = 0.0
+    omega: float | None = None
+
+    @property
+    def host_mass(self) -> float | None:
+        """Star + companion, M☉ (None without the star's mass)."""
+        return None if self.star_mass is None else self.star_mass + self.companion_mass
+
+    @classmethod
+    def from_system(cls, system) -> "HostContext":
+        """The context of a :class:`~ttvkit.physics.System` (masses, e and ω of its orbit)."""
+        import astropy.units as u
+
+        mass = system.star.mass
+        if mass is None:
+            return cls()
+        planet = system.companion.mass
+        orbit = system.orbit
+        return cls(star_mass=float(mass.to_value(u.Msun)),
+                   companion_mass=float(planet.to_value(u.Msun)) if planet is not None else 0.0,
+                   eccentricity=float(orbit.eccentricity or 0.0),
+                   omega=float(orbit.omega.to_value(u.rad)) if orbit.omega is not None else None)
+
+    @classmethod
+    def coerce(cls, context) -> "HostContext":
+        """A HostContext from None, a HostContext or anything with ``star``, ``companion`` and ``orbit``."""
+        if context is None:
+            return cls()
+        if isinstance(context, cls):
+            return context
+        if all(hasattr(context, a) for a in ("star", "companion", "orbit")):
+            return cls.from_system(context)
+        raise TypeError(f"context must be a HostContext or a System, not {type(context).__name__}")
+
+
 @dataclass
 class TimingData:
     """The numbers a hypothesis needs, taken from a TimingTable.
@@ -80,8 +140,11 @@ class TimingData:
         BJD_TDB of the reference (the constant-period T0 guess).
     period : float
         Constant-period guess (days).
-    context : dict
-        Optional physical context for derived quantities (e.g. star mass).
+    host : HostContext
+        Masses and orbit shape for mass-dependent derived quantities.
+    perturber_seeds : tuple
+        Extra starting points (period in days, mass in M⊕, longitude in
+        rad) for a perturbing-planet fit, e.g. a perturber map's best points.
     """
 
     epoch: np.ndarray
@@ -91,23 +154,28 @@ class TimingData:
     sigma: np.ndarray
     t_ref: float
     period: float
-    context: dict = field(default_factory=dict)
+    host: HostContext = field(default_factory=HostContext)
+    perturber_seeds: tuple = ()
 
     @classmethod
-    def from_table(cls, table, context: dict | None = None) -> "TimingData":
-        """Build from a :class:`~ttvkit.timing.TimingTable` (a weighted linear fit sets t_ref, P)."""
-        from ..timing import KINDS
+    def from_table(cls, table, context=None, perturber_seeds=()) -> "TimingData":
+        """Build from a :class:`~ttvkit.timing.table.TimingTable` (a weighted linear fit sets t_ref, P)."""
+        from ttvkit.timing.ephemeris import KINDS
 
         epoch = table.epoch.astype(float)
         phase = np.array([KINDS[k] for k in table.kind])
-        x = epoch + phase
-        w = 1.0 / table.uncertainty
-        design = np.column_stack([np.ones_like(x), x])
         t_anchor = float(np.round(np.median(table.time), 1))
-        coef, *_ = np.linalg.lstsq(design * w[:, None], (table.time - t_anchor) * w, rcond=None)
-        t_ref = t_anchor + float(coef[0])
+        line = weighted_line(epoch + phase, table.time - t_anchor, table.uncertainty)
+        t_ref = t_anchor + line.intercept
         return cls(epoch, phase, phase > 0, table.time - t_ref, table.uncertainty.copy(), t_ref,
-                   float(coef[1]), dict(context or {}))
+                   line.slope, HostContext.coerce(context), tuple(perturber_seeds))
+
+    def at_epochs(self, epochs, phase=None) -> "TimingData":
+        """The same reference and context at other epochs (no data): for predictions and figures."""
+        epochs = np.asarray(epochs, float)
+        phase = np.zeros(epochs.size) if phase is None else np.asarray(phase, float)
+        return TimingData(epochs, phase, phase > 0, np.zeros(epochs.size), np.ones(epochs.size), self.t_ref,
+                          self.period, self.host, self.perturber_seeds)
 
     @property
     def n(self) -> int:
@@ -117,10 +185,7 @@ class TimingData:
     def linear_residuals(self) -> np.ndarray:
         """Residuals (days) from the weighted constant-period fit."""
         x = self.epoch + self.phase
-        w = 1.0 / self.sigma
-        design = np.column_stack([np.ones_like(x), x])
-        coef, *_ = np.linalg.lstsq(design * w[:, None], self.time * w, rcond=None)
-        return self.time - design @ coef
+        return self.time - weighted_line(x, self.time, self.sigma)(x)
 
     @property
     def span(self) -> float:
@@ -140,6 +205,13 @@ class Term(ABC):
     #: True when an evaluation is costly (an integration): fits then take
     #: the Jacobian's rows in one batched evaluation
     expensive: bool = False
+
+    def __init_subclass__(cls, **kwargs):
+        super().__init_subclass__(**kwargs)
+        if cls.__dict__.get("key"):
+            if cls.key in TERMS and TERMS[cls.key] is not cls:
+                raise ValueError(f"two timing terms share the key {cls.key!r}")
+            TERMS[cls.key] = cls
 
     @abstractmethod
     def parameters(self) -> tuple[Parameter, ...]:

@@ -12,12 +12,14 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import DAY_S, Derived, Parameter, Term, TimingData
+from ttvkit._linear import weighted_lstsq
+from ttvkit.constants import DAY_S, YEAR_D
+from ttvkit.hypotheses.base import Derived, Parameter, Term, TimingData
 
 __all__ = ["ConstantPeriod", "OrbitalDecay", "MS_PER_YR_PER_S_PER_S"]
 
 #: (s/s) → (ms/yr)
-MS_PER_YR_PER_S_PER_S = 365.25 * DAY_S * 1e3
+MS_PER_YR_PER_S_PER_S = YEAR_D * DAY_S * 1e3
 
 
 def t0_period_bounds(data: TimingData):
@@ -69,9 +71,8 @@ class OrbitalDecay(Term):
 
     def guesses(self, data, residuals):
         x = data.epoch
-        w = 1 / data.sigma
         design = np.column_stack([np.ones_like(x), x + data.phase, 0.5 * x ** 2])
-        coef, *_ = np.linalg.lstsq(design * w[:, None], data.time * w, rcond=None)
+        coef = weighted_lstsq(design, data.time, data.sigma)
         return [np.array([coef[0], coef[1], coef[2]]), np.array([0.0, data.period, 0.0])]
 
     def evaluate(self, p, data, base):
@@ -80,6 +81,6 @@ class OrbitalDecay(Term):
     def derived(self, p, data):
         rate = p["dP_dE"][..., 0] / p["P"][..., 0]              # s/s
         with np.errstate(divide="ignore"):
-            timescale = p["P"][..., 0] / np.abs(rate) / 365.25 / 1e6
+            timescale = p["P"][..., 0] / np.abs(rate) / YEAR_D / 1e6
         return {"dP_dt": Derived(rate * MS_PER_YR_PER_S_PER_S, "ms/yr", "rate of change of the period"),
                 "decay_timescale": Derived(timescale, "Myr", "P / abs(dP/dt)")}

@@ -21,9 +21,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..physics.kepler import solve_kepler, true_anomaly
-from ._periodic import amplitude_limit, candidate_periods, period_range, sinusoid_at
-from .base import DAY_S, Derived, Parameter, Term
+from ttvkit.constants import DAY_S, YEAR_D
+from ttvkit.hypotheses._periodic import (
+    amplitude_limit,
+    candidate_periods,
+    period_range,
+    sinusoid_at,
+)
+from ttvkit.hypotheses.base import Derived, Parameter, Term
+from ttvkit.physics.kepler import solve_kepler, true_anomaly
 
 __all__ = ["LightTravelTime", "light_time_delay"]
 
@@ -100,11 +106,11 @@ class LightTravelTime(Term):
             "a12_sin_i": Derived(a12, "AU", "projected semi-major axis of the pair's orbit"),
             "mass_function": Derived(f_m, "Msun", "f(m) = (m3 sin i)^3 / (M + m3)^2"),
             "periastron_time": Derived(t_peri, "BJD_TDB", "a time of periastron passage"),
-            "companion_period_yr": Derived(period / 365.25, "yr", "companion's period"),
+            "companion_period_yr": Derived(period / YEAR_D, "yr", "companion's period"),
         }
-        host = data.context.get("host_mass_msun")
+        host = data.host.host_mass
         if host:
-            from ..physics.companions import minimum_companion_mass
+            from ttvkit.physics.companions import minimum_companion_mass
 
             # one root per draw; 2000 evenly spaced draws pin the quantiles
             flat = np.atleast_1d(f_m).ravel()

@@ -13,8 +13,14 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._periodic import amplitude_limit, candidate_periods, period_range, sinusoid_at
-from .base import DAY_S, Derived, Parameter, Term
+from ttvkit.constants import DAY_S, YEAR_D
+from ttvkit.hypotheses._periodic import (
+    amplitude_limit,
+    candidate_periods,
+    period_range,
+    sinusoid_at,
+)
+from ttvkit.hypotheses.base import Derived, Parameter, Term
 
 __all__ = ["SinusoidalModulation"]
 
@@ -56,7 +62,7 @@ class SinusoidalModulation(Term):
         return {
             "semi_amplitude": Derived(amp, "s", "O−C semi-amplitude A (half the peak-to-peak O−C)"),
             "phase": Derived(np.degrees(np.arctan2(b, a)) % 360, "deg", "phase φ at T0"),
-            "modulation_period_yr": Derived(period / 365.25, "yr", "modulation period"),
+            "modulation_period_yr": Derived(period / YEAR_D, "yr", "modulation period"),
             "delta_P_over_P": Derived(2 * np.pi * amp / (period * DAY_S), "",
                                       "period modulation ΔP/P = 2πA/P_mod"),
         }

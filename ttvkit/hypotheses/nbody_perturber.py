@@ -22,10 +22,9 @@ epochs (figures) and occultations (epoch + ½) take the variation
 interpolated linearly between neighbouring transits: an approximation for
 occultations, exact enough for a circular transiting orbit.
 
-Needs the star's mass in the data's context (``star_mass_msun``, or
-``host_mass_msun`` = star + planet) and uses ``companion_mass_msun``,
-``eccentricity`` and ``omega_rad`` of the transiting planet when given
-(:func:`ttvkit.diagnose.timing_context` fills them from the System).  Assumptions: two planets, coplanar and edge-on; point masses, no
+Needs the star's mass in the data's :class:`~ttvkit.hypotheses.base.HostContext`
+and uses the transiting planet's mass, eccentricity and ω when given
+(``HostContext.from_system`` fills them from the System).  Assumptions: two planets, coplanar and edge-on; point masses, no
 tides or relativity; the perturber on a fixed Keplerian start; transits are
 minimum sky separations.  Each evaluation is a full integration, so fits
 take seconds to minutes and sampling minutes to hours.
@@ -35,14 +34,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import InputError
-from ..physics import nbody
-from ._periodic import candidate_periods
-from .base import Derived, Parameter, Term
+from ttvkit._linear import weighted_lstsq
+from ttvkit.constants import MEARTH_PER_MSUN, YEAR_D
+from ttvkit.errors import InputError
+from ttvkit.hypotheses._periodic import candidate_periods
+from ttvkit.hypotheses.base import Derived, Parameter, Term
+from ttvkit.physics import nbody
 
 __all__ = ["NBodyPerturber"]
 
-_MEARTH_PER_MSUN = 332946.0487
 #: Periods of the starting grid (times 4 longitudes, one batched integration at 1 Earth mass).
 GRID_PERIODS = 120
 
@@ -77,19 +77,16 @@ class NBodyPerturber(Term):
         return self._anchor
 
     def _masses(self, data):
-        ctx = data.context
-        star = ctx.get("star_mass_msun") or ctx.get("host_mass_msun")
-        if not star:
+        host = data.host
+        if not host.star_mass:
             raise InputError("the n-body-perturber hypothesis needs the star's mass (a System with star.mass)")
-        planet = float(ctx.get("companion_mass_msun") or 0.0)
-        if "star_mass_msun" not in ctx:            # host_mass_msun is star + planet
-            star = star - planet
-        return float(star), planet, float(ctx.get("eccentricity") or 0.0), float(ctx.get("omega_rad", np.pi / 2))
+        omega = np.pi / 2 if host.omega is None else host.omega
+        return float(host.star_mass), float(host.companion_mass), float(host.eccentricity), float(omega)
 
     def bounds(self, data):
         self._anchor_on(data)
         star, *_ = self._masses(data)
-        top = 0.02 * star * _MEARTH_PER_MSUN          # 20 Jupiter masses per solar mass
+        top = 0.02 * star * MEARTH_PER_MSUN          # 20 Jupiter masses per solar mass
         return (np.array([0.0, self.min_ratio * data.period, -0.5, -0.5, 0.0]),
                 np.array([top, self.max_ratio * data.period, 0.5, 0.5, 2 * np.pi]))
 
@@ -113,7 +110,7 @@ class NBodyPerturber(Term):
         if not np.any(ok):
             return out
         n = int(ok.sum())
-        masses = np.column_stack([np.full(n, star), np.full(n, planet), mass[ok] / _MEARTH_PER_MSUN])
+        masses = np.column_stack([np.full(n, star), np.full(n, planet), mass[ok] / MEARTH_PER_MSUN])
         periods = np.column_stack([period[ok], p_pert[ok]])
         ecc = np.column_stack([np.full(n, e_t), e_p[ok]])
         omega = np.column_stack([np.full(n, w_t), w_p[ok]])
@@ -138,19 +135,19 @@ class NBodyPerturber(Term):
         times = self._times(*flat, data, needed)
         # remove the weighted straight line over the anchor epochs: (T0, P) stay the mean ephemeris
         ia = np.searchsorted(needed, anchor_epochs)
-        design = np.column_stack([np.ones(anchor_epochs.size), anchor_epochs]) * np.sqrt(anchor_w)[:, None]
-        coef = np.linalg.lstsq(design, (times[:, ia] * np.sqrt(anchor_w)).T, rcond=None)[0]   # [2, S]
+        design = np.column_stack([np.ones(anchor_epochs.size), anchor_epochs])
+        coef = weighted_lstsq(design, times[:, ia].T, weights=np.sqrt(anchor_w))   # [2, S]
         ttv = times - (coef[0][:, None] + coef[1][:, None] * needed[None, :])
         i0, i1 = np.searchsorted(needed, lo_e), np.searchsorted(needed, hi_e)
         frac = x - lo_e
         value = ttv[:, i0] * (1 - frac) + ttv[:, i1] * frac
         return value.reshape(shape + (x.size,))
 
-    # -- starting points: a perturber map's best points (context "perturber_seeds"), then a coarse grid
+    # -- starting points: a perturber map's best points (data.perturber_seeds), then a coarse grid
     #    and the near-resonant periods, each scaled linearly in mass ------------------------------------
     def guesses(self, data, residuals):
         lo, hi = self.bounds(data)
-        from ..perturbers import perturber_periods
+        from ttvkit.physics.resonance import perturber_periods
 
         period = data.period
         # the map's kind of grid, coarser: log-spaced plus points packed around the resonances
@@ -180,7 +177,7 @@ class NBodyPerturber(Term):
             gain = np.where((uu > 0) & (scale > 0), ur ** 2 / uu, -np.inf)
         order = np.argsort(-gain)
         out = [np.array([np.clip(m, lo[0], 0.5 * hi[0]), period_d, 0.0, 0.0, lam])   # from a perturber map
-               for period_d, m, lam in data.context.get("perturber_seeds", ())
+               for period_d, m, lam in data.perturber_seeds
                if lo[1] < period_d < hi[1] and np.isfinite(m)]
         used = set()
         for i in order:                    # the best phase of each of the six best periods
@@ -195,13 +192,13 @@ class NBodyPerturber(Term):
     def derived(self, p, data):
         import astropy.units as u
 
-        from ..physics.companions import mutual_hill_separation
+        from ttvkit.physics.companions import mutual_hill_separation
 
         star, planet, *_ = self._masses(data)
         mass = p["perturber_mass"][..., 0]
         ratio = p["perturber_period"][..., 0] / p["P"][..., 0]
         ecc = np.hypot(p["perturber_ecosw"][..., 0], p["perturber_esinw"][..., 0])
-        a_t = ((star + planet) * (p["P"][..., 0] / 365.25) ** 2) ** (1 / 3)
+        a_t = ((star + planet) * (p["P"][..., 0] / YEAR_D) ** 2) ** (1 / 3)
         sep = mutual_hill_separation(star * u.Msun, planet * u.Msun, a_t * u.AU, mass * u.Mearth,
                                      a_t * ratio ** (2 / 3) * u.AU)
         return {

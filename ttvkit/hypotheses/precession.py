@@ -18,8 +18,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import Derived, Parameter, Term, TimingData
-from .ephemerides import t0_period_bounds
+from ttvkit._linear import weighted_lstsq
+from ttvkit.constants import YEAR_D
+from ttvkit.hypotheses.base import Derived, Parameter, Term, TimingData
+from ttvkit.hypotheses.ephemerides import t0_period_bounds
 
 __all__ = ["ApsidalPrecession"]
 
@@ -51,7 +53,6 @@ class ApsidalPrecession(Term):
     def guesses(self, data, residuals):
         n_epochs = max(np.ptp(data.epoch), 10.0)
         sign = np.where(data.secondary, 1.0, -1.0)
-        w = 1 / data.sigma
         out = []
         for periods in (0.5, 1.0, 2.0, 4.0):
             rate = 2 * np.pi / (periods * n_epochs)
@@ -59,7 +60,7 @@ class ApsidalPrecession(Term):
             x = data.epoch + data.phase
             design = np.column_stack([np.ones_like(x), x, sign * amp * np.cos(rate * data.epoch),
                                       -sign * amp * np.sin(rate * data.epoch)])
-            coef, *_ = np.linalg.lstsq(design * w[:, None], data.time * w, rcond=None)
+            coef = weighted_lstsq(design, data.time, data.sigma)
             k, h = np.clip(coef[2:], -0.09, 0.09)
             out.append(np.array([coef[0], coef[1], k, h, rate]))
         return out
@@ -82,6 +83,6 @@ class ApsidalPrecession(Term):
             "eccentricity": Derived(np.hypot(k, h), "", "orbital eccentricity"),
             "omega0": Derived(np.degrees(np.arctan2(h, k)) % 360, "deg", "argument of periastron at epoch 0"),
             "anomalistic_period": Derived(p_anom, "d", "P_a"),
-            "precession_period": Derived(2 * np.pi / rate * period / 365.25, "yr", "time for ω to turn once"),
-            "domega_dt": Derived(np.degrees(rate / period) * 365.25, "deg/yr", "precession rate"),
+            "precession_period": Derived(2 * np.pi / rate * period / YEAR_D, "yr", "time for ω to turn once"),
+            "domega_dt": Derived(np.degrees(rate / period) * YEAR_D, "deg/yr", "precession rate"),
         }

@@ -20,18 +20,19 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..physics.resonance import normalised_distance, resonance_coefficients
-from ._periodic import amplitude_limit, candidate_periods, sinusoid_at
-from .base import DAY_S, Derived, Parameter, Term
+from ttvkit.constants import DAY_S, MJUP_PER_MSUN
+from ttvkit.hypotheses._periodic import amplitude_limit, candidate_periods, sinusoid_at
+from ttvkit.hypotheses.base import Derived, Parameter, Term
+from ttvkit.physics.resonance import normalised_distance, resonance_coefficients
 
 __all__ = ["NearResonantPerturber"]
 
-_MJUP_PER_MSUN = 1047.5654817
 
 
 class NearResonantPerturber(Term):
     """Sinusoidal TTV at the super-period of a j:j−1 near-resonant perturber."""
 
+    key = "near-resonant-perturber"     # each instance names its resonance, e.g. (j=3)
     assumptions = ("A perturbing planet near (not in) a first-order resonance, coplanar and nearly "
                    "circular orbits; the mass quoted assumes zero free eccentricity.")
 
@@ -107,8 +108,8 @@ class NearResonantPerturber(Term):
             "resonance_distance": Derived(delta, "", "Δ = (P_out/P_in)(j−1)/j − 1"),
             "perturber_mass_ratio": Derived(mu, "", "perturber mass / star mass for zero free eccentricity"),
         }
-        host = data.context.get("host_mass_msun")
+        host = data.host.host_mass
         if host:
-            out["perturber_mass"] = Derived(mu * host * _MJUP_PER_MSUN, "Mjup",
+            out["perturber_mass"] = Derived(mu * host * MJUP_PER_MSUN, "Mjup",
                                             "perturber mass for zero free eccentricity")
         return out

@@ -24,10 +24,11 @@ import threading
 import numpy as np
 from numba import njit, prange
 
+from ttvkit.constants import C_AU_PER_DAY
+
 __all__ = ["integrate"]
 
 _G = 0.01720209895 ** 2
-_C_AU_PER_DAY = 173.1446326742403
 
 
 @njit(cache=True, fastmath=False, inline="always")
@@ -301,7 +302,7 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
                 tau = tau - _newton(rt, vt, m, cum, p, mu_e, wx, wv)
             t = step * h + tau
             if light_time:            # the star's barycentric z (wx holds the refined state)
-                t -= wx[0, 2] / _C_AU_PER_DAY
+                t -= wx[0, 2] / C_AU_PER_DAY
             out[p, count[p] - 1] = t
 
 

@@ -56,8 +56,8 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 
-from .structure import polytrope
-from .system import System
+from ttvkit.physics.structure import polytrope
+from ttvkit.physics.system import System
 
 __all__ = ["ActivityBudget", "period_change_from_amplitude", "thin_shell_budget",
            "finite_shell_budget", "activity_budgets", "activity_envelope"]

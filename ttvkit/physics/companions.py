@@ -12,7 +12,8 @@ a₁₂ sin i = c·A (A the light-time amplitude) and the period P₃:
 * against the System's RV limits: over a baseline B the largest RV change
   is 2K sin(min(πB/P₃, π/2)) (a circular-orbit estimate); the companion
   would already have been seen if that exceeds 3× the RV residual RMS
-  (common practice, no source), or if its acceleration 2πK/P₃ exceeds a
+  (common practice, no source; :func:`rv_visibility`, the one rule ttvkit
+  uses for every companion and perturber), or if its acceleration 2πK/P₃ exceeds a
   measured acceleration by more than 3σ.
 
 The Rømer effect of a steady line-of-sight acceleration a_r (Bouma et al.
@@ -32,11 +33,12 @@ import astropy.units as u
 import numpy as np
 from scipy.optimize import brentq
 
-from .system import System
+from ttvkit.physics.system import System
 
 __all__ = ["projected_orbit_size", "mass_function", "minimum_companion_mass",
            "light_time_companion", "CompanionCheck", "romer_decay_rate", "romer_acceleration",
-           "hill_stable", "mutual_hill_separation", "rv_change_over_baseline"]
+           "hill_stable", "mutual_hill_separation", "rv_change_over_baseline", "rv_visibility",
+           "rv_threshold_semi_amplitude", "RV_DETECTION_SIGMA"]
 
 
 def projected_orbit_size(light_time_amplitude) -> u.Quantity:
@@ -108,10 +110,8 @@ def light_time_companion(system: System, light_time_amplitude, period,
     change = None
     seen = None
     reason = "no RV limits given: cannot say whether radial velocities would show it"
-    if rv.scatter is not None and rv.baseline is not None:
-        change = rv_change_over_baseline(k, p, rv.baseline)
-        limit = 3 * rv.scatter
-        seen = bool(change > limit)
+    seen, change, limit = rv_visibility(k, p, rv)
+    if seen is not None:
         reason = (f"over the {rv.baseline.to(u.yr):.3g} RV baseline it would change the host's "
                   f"velocity by {change:.3g}, {'more' if seen else 'less'} than 3x the RV scatter "
                   f"({limit:.3g})")
@@ -135,6 +135,47 @@ def romer_acceleration(period, decay_rate) -> u.Quantity:
     p = u.Quantity(period, u.day)
     rate = u.Quantity(decay_rate, u.ms / u.yr)
     return (const.c * rate / p).to(u.m / u.s / u.day)
+
+
+#: An RV signal counts as seen when its change over the RV baseline exceeds this many times the RV
+#: residual scatter (common practice, no source).
+RV_DETECTION_SIGMA = 3.0
+
+
+def rv_visibility(semi_amplitude, period, limits):
+    """The one RV-visibility rule of ttvkit: would the System's RVs already show this signal?
+
+    Seen when the largest RV change over the RV baseline,
+    2K sin(min(πB/P, π/2)) (:func:`rv_change_over_baseline`), exceeds
+    :data:`RV_DETECTION_SIGMA` × the RV residual scatter.  The change over
+    the baseline, not K alone, is the rule because a long-period companion
+    moves the star little over a short RV series, however large its K.
+
+    Parameters
+    ----------
+    semi_amplitude, period : Quantity (scalars or arrays)
+    limits : RadialVelocityLimits
+
+    Returns
+    -------
+    (seen, change, threshold)
+        ``seen`` is a bool (or bool array); all three are None when the
+        limits lack the scatter or the baseline.
+    """
+    if limits.scatter is None or limits.baseline is None:
+        return None, None, None
+    change = rv_change_over_baseline(semi_amplitude, period, limits.baseline)
+    threshold = RV_DETECTION_SIGMA * limits.scatter.to(u.m / u.s)
+    seen = change > threshold
+    return (bool(seen) if np.ndim(seen) == 0 else np.asarray(seen)), change, threshold
+
+
+def rv_threshold_semi_amplitude(period, limits) -> u.Quantity | None:
+    """The smallest K the System's RVs would have seen at each ``period`` (None without limits)."""
+    if limits.scatter is None or limits.baseline is None:
+        return None
+    unit = rv_change_over_baseline(1 * u.m / u.s, period, limits.baseline).to_value(u.m / u.s)
+    return RV_DETECTION_SIGMA * limits.scatter.to(u.m / u.s) / unit
 
 
 def rv_change_over_baseline(semi_amplitude, period, baseline) -> u.Quantity:

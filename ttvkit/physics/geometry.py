@@ -13,9 +13,29 @@ from __future__ import annotations
 import astropy.units as u
 import numpy as np
 
-from .system import System
+from ttvkit.physics.system import System
 
-__all__ = ["impact_parameter", "transit_durations"]
+__all__ = ["impact_parameter", "transit_durations", "contact_durations"]
+
+
+def contact_durations(period: float, a_over_rstar: float, radius_ratio: float, impact: float,
+                      inclination_rad: float, eccentricity: float = 0.0,
+                      omega_rad: float = np.pi / 2) -> tuple[float, float]:
+    """(T14, T23) in the unit of ``period`` (Winn 2010 eqs. 14, 16); T23 is 0 for a grazing transit.
+
+    The one implementation of the formula: :func:`transit_durations` (from
+    a System) and the light-curve transit shape both call it.
+    """
+    factor = np.sqrt(1 - eccentricity ** 2) / (1 + eccentricity * np.sin(omega_rad))
+    sin_i = np.sin(inclination_rad)
+
+    def duration(size):
+        arg = size ** 2 - impact ** 2
+        if arg <= 0:
+            return 0.0
+        return float(period / np.pi * np.arcsin(min(np.sqrt(arg) / (a_over_rstar * sin_i), 1.0)) * factor)
+
+    return duration(1 + radius_ratio), duration(1 - radius_ratio)
 
 
 def impact_parameter(system: System) -> float:
@@ -37,16 +57,7 @@ def transit_durations(system: System) -> tuple[u.Quantity, u.Quantity]:
     rp = system.companion.need("radius", "the transit duration")
     k = float((rp / rs).decompose())
     a_rs = float((system.semi_major_axis / rs).decompose())
-    b = impact_parameter(system)
     e = orbit.eccentricity or 0.0
     w = (orbit.omega if orbit.omega is not None else 90 * u.deg).to_value(u.rad)
-    factor = np.sqrt(1 - e ** 2) / (1 + e * np.sin(w))
-
-    def duration(size):
-        arg = (size ** 2 - b ** 2)
-        if arg <= 0:
-            return 0.0
-        return float(np.arcsin(min(np.sqrt(arg) / (a_rs * np.sin(inc)), 1.0)))
-
-    p_h = period.to_value(u.h)
-    return (p_h / np.pi * duration(1 + k) * factor * u.h, p_h / np.pi * duration(1 - k) * factor * u.h)
+    t14, t23 = contact_durations(period.to_value(u.h), a_rs, k, impact_parameter(system), inc, e, w)
+    return t14 * u.h, t23 * u.h

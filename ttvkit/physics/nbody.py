@@ -47,14 +47,14 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import InputError
+from ttvkit.constants import C_AU_PER_DAY
+from ttvkit.errors import InputError
 
 __all__ = ["GAUSS_G", "elements_to_cartesian", "transit_times", "reference_transit_times", "default_step",
            "energy", "orbits_overlap", "mean_anomaly_at_transit", "STEPS_PER_ORBIT"]
 
 #: G in AU³ / (M☉ d²) (IAU k = 0.01720209895, k²).
 GAUSS_G = 0.01720209895 ** 2
-_C_AU_PER_DAY = 173.1446326742403
 
 
 def _check(masses, period, ecc):
@@ -98,7 +98,7 @@ def elements_to_cartesian(mu, period, ecc, omega, inc, node, mean_anomaly):
 
     Observer on +z; a transit (planet in front) happens at ω + f = π/2.
     """
-    from .kepler import solve_kepler, true_anomaly
+    from ttvkit.physics.kepler import solve_kepler, true_anomaly
 
     a = (mu * (period / (2 * np.pi)) ** 2) ** (1 / 3)
     E = solve_kepler(np.mod(mean_anomaly, 2 * np.pi), ecc)
@@ -448,7 +448,7 @@ def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: fl
     if engine == "compiled":
         if return_state:
             raise ValueError("return_state needs engine='numpy'")
-        from . import _nbody_compiled
+        from ttvkit.physics import _nbody_compiled
 
         hs = default_step(els[0], els[1]) if dt is None else np.broadcast_to(np.asarray(dt, float),
                                                                               (masses.shape[0],))
@@ -508,7 +508,7 @@ def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: fl
             tau = tau - delta
         times = start + tau
         if light_time:  # the star's barycentric z: light from it arrives later when z < 0
-            times = times - xb[rows, 0, 2] / _C_AU_PER_DAY
+            times = times - xb[rows, 0, 2] / C_AU_PER_DAY
         key = s_idx * mp.shape[1] + n_idx                   # chronological within each planet
         order_ = np.argsort(key, kind="stable")
         sorted_key = key[order_]

@@ -20,10 +20,15 @@ commensurability they reproduce LXW Table 3 (j = 2: −1.190, 0.4284).
 
 from __future__ import annotations
 
+import astropy.units as u
 import numpy as np
 from scipy.integrate import quad
 
-__all__ = ["laplace_coefficient", "resonance_coefficients", "super_period", "normalised_distance"]
+__all__ = ["laplace_coefficient", "resonance_coefficients", "super_period", "normalised_distance",
+           "perturber_periods", "RESONANCES"]
+
+#: Resonances (outer:inner period ratios) the default grid packs points around.
+RESONANCES = (2.0, 1.5, 4 / 3, 3.0, 5 / 3)
 
 
 def laplace_coefficient(s: float, k: int, alpha: float, derivative: bool = False) -> float:
@@ -62,3 +67,37 @@ def super_period(inner_period, outer_period, j: int):
 def normalised_distance(inner_period, outer_period, j: int):
     """Δ = (P′/P)(j−1)/j − 1."""
     return outer_period / inner_period * (j - 1) / j - 1.0
+
+
+def perturber_periods(transit_period, low: float = 0.3, high: float = 10.0, n: int = 500,
+                      resonance_points: int = 6, resonance_width: float = 0.03) -> u.Quantity:
+    """A grid of perturber periods: log-spaced plus points packed around resonances.
+
+    Parameters
+    ----------
+    transit_period : Quantity
+        The transiting planet's period.
+    low, high : float
+        Range as multiples of ``transit_period``.
+    n : int
+        Total number of periods.
+    resonance_points : int
+        Points on each side of every resonance in :data:`RESONANCES` (and of
+        their inverses, for inner perturbers), within a fractional
+        ``resonance_width`` of it.
+
+    Returns
+    -------
+    Quantity
+        Sorted periods (days).
+    """
+    p = u.Quantity(transit_period, u.day).to_value(u.day)
+    ratios = list(RESONANCES) + [1 / r for r in RESONANCES]
+    packed = []
+    for r in ratios:
+        if low < r < high:
+            offsets = np.geomspace(resonance_width / 30, resonance_width, resonance_points)
+            packed += list(r * (1 + offsets)) + list(r * (1 - offsets))
+    packed = np.array([x for x in packed if low <= x <= high])
+    base = np.geomspace(low, high, max(n - packed.size, 2))
+    return np.unique(np.concatenate([base, packed])) * p * u.day

@@ -15,14 +15,14 @@ from __future__ import annotations
 
 import sys
 from dataclasses import dataclass, field, fields
-from typing import ClassVar
 from pathlib import Path
+from typing import ClassVar
 
 import astropy.constants as const
 import astropy.units as u
 import numpy as np
 
-from ..errors import InputError, MissingValueError
+from ttvkit.errors import InputError, MissingValueError
 
 if sys.version_info >= (3, 11):
     import tomllib

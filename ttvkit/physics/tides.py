@@ -30,7 +30,7 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 
-from .system import System
+from ttvkit.physics.system import System
 
 __all__ = ["decay_rate_from_quality_factor", "quality_factor_from_decay_rate", "decay_timescale",
            "time_to_roche_limit", "roche_limit", "QUALITY_FACTOR_RANGES", "plausible_quality_factor",

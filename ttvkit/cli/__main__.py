@@ -1,0 +1,7 @@
+"""``python -m ttvkit.cli``."""
+
+import sys
+
+from ttvkit.cli.main import main
+
+sys.exit(main())

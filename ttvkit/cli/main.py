@@ -1,0 +1,79 @@
+"""The ``ttvkit`` command.
+
+Each sub-command is a small function that reads its arguments, calls the
+library and prints.  Any :class:`~ttvkit.errors.TtvkitError` becomes one
+line on stderr and exit status 2; ``--debug`` shows the traceback instead.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import textwrap
+import warnings
+
+from ttvkit._version import __version__
+from ttvkit.cli import budget, demo, diagnose, fitting, measure, perturbers, tables
+from ttvkit.errors import TtvkitError, TtvkitWarning
+
+__all__ = ["main", "build_parser"]
+
+#: The sub-command modules, in the order ``ttvkit --help`` lists them.
+COMMANDS = (tables, demo, budget, measure, fitting, diagnose, perturbers)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of the ``ttvkit`` command."""
+    parser = argparse.ArgumentParser(
+        prog="ttvkit",
+        description="Transit and eclipse timing: put mid-times in BJD_TDB, fit every "
+                    "explanation of a timing drift and test each against the physics.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog="Run 'ttvkit COMMAND --help' for a command's options and examples.")
+    parser.add_argument("--version", action="version", version=f"ttvkit {__version__}")
+    parser.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    for module in COMMANDS:
+        module.add_commands(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``ttvkit`` command; returns the exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 0
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", TtvkitWarning)
+            status = args.func(args)
+        for w in caught:
+            if issubclass(w.category, TtvkitWarning):
+                print(f"warning: {w.message}", file=sys.stderr)
+        return status
+    except TtvkitError as exc:
+        if args.debug:
+            raise
+        print(f"ttvkit {args.command}: error: {_one_line(str(exc))}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"ttvkit {args.command}: interrupted", file=sys.stderr)
+        return 130
+    except Exception as exc:  # the user must never see a traceback by default
+        if args.debug:
+            raise
+        print(f"ttvkit {args.command}: internal error ({type(exc).__name__}: "
+              f"{_one_line(str(exc))}); rerun with --debug and report it", file=sys.stderr)
+        return 1
+
+
+def _one_line(text: str) -> str:
+    return " ".join(textwrap.dedent(text).split())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
+

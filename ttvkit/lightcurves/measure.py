@@ -1,0 +1,230 @@
+"""From light-curve files to a timing table: windows, shape, per-transit mid-times.
+
+:func:`measure` reads each light curve (:mod:`ttvkit.lightcurves.reading`), cuts a
+window around every predicted transit, fixes the transit shape — given by
+the user or fitted to all windows at once (:func:`fit_shape`) — and times
+each window (:func:`ttvkit.lightcurves.midtime.fit_mid_time`).  Windows are processed
+one at a time, so memory stays flat with the number of transits.  Windows
+too sparse to time, or partial ones unless asked, are reported and skipped,
+never silently dropped.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+from scipy.optimize import least_squares
+
+from ttvkit.errors import InputError
+from ttvkit.lightcurves.midtime import TransitShape, WindowModel, fit_mid_time
+from ttvkit.lightcurves.reading import read_light_curve
+from ttvkit.timing.table import TimingTable
+
+__all__ = ["measure", "MeasureOptions", "fit_shape", "guess_shape", "MeasureReport"]
+
+#: Sub-exposure length for supersampling long cadences (common practice, no source).
+SUBEXPOSURE_DAYS = 2.0 / 1440
+
+
+@dataclass
+class MeasureReport:
+    """What was measured, skipped and dropped."""
+
+    measured: int = 0
+    skipped: list = field(default_factory=list)
+    dropped: dict = field(default_factory=dict)
+    shape: TransitShape | None = None
+
+    def to_dict(self) -> dict:
+        """Plain-JSON form."""
+        s = self.shape
+        return {"measured": self.measured, "skipped": self.skipped, "dropped_points": self.dropped,
+                "shape": None if s is None else {k: getattr(s, k) for k in s.__dataclass_fields__}}
+
+
+def guess_shape(windows, period: float) -> TransitShape:
+    """A rough shape from the windows folded on their predicted mid-times."""
+    dt = np.concatenate([w.time - w.predicted for w in windows])
+    f = np.concatenate([w.flux / np.median(w.flux) for w in windows])
+    order = np.argsort(dt)
+    dt, f = dt[order], f[order]
+    bins = np.linspace(dt[0], dt[-1], 80)
+    idx = np.digitize(dt, bins)
+    binned = np.array([np.median(f[idx == i]) if np.any(idx == i) else 1.0 for i in range(1, bins.size)])
+    depth = float(max(1 - np.min(binned), 1e-4))
+    centres = 0.5 * (bins[1:] + bins[:-1])
+    inside = centres[binned < 1 - depth / 2]
+    t14 = float(max(np.ptp(inside) if inside.size > 1 else 0.1, 0.02)) * 1.1
+    k = float(np.sqrt(depth))
+    a = float(max(period * (1 + k) / (np.pi * t14) * np.sqrt(1 - 0.3 ** 2), 1.5))
+    return TransitShape(period, k, a, 0.3)
+
+
+def fit_shape(windows, initial: TransitShape, baseline_order: int = 1) -> TransitShape:
+    """Fit radius ratio, a/R*, impact parameter and q1, q2 to all windows at once.
+
+    Each window has its own mid-time (fitted) and polynomial baseline
+    (profiled out).  Bounds: 0 < k < 0.5, 1.2 < a/R* < 200, 0 ≤ b < 1 + k,
+    0 ≤ q1, q2 ≤ 1 (Kipping 2013).
+    """
+    if not windows:
+        raise InputError("no windows to fit a shape to")
+    n = len(windows)
+
+    def shape_of(x):
+        return replace(initial, radius_ratio=x[0], a_over_rstar=x[1], impact_parameter=x[2], q1=x[3], q2=x[4])
+
+    models = [None] * n
+
+    def residuals(x):
+        shape = shape_of(x)
+        p = shape.batman_params(0.0)   # one shape for every window of this trial
+        out = []
+        for i, w in enumerate(windows):
+            if models[i] is None:
+                models[i] = WindowModel(w.time, w.flux, w.flux_err, shape, baseline_order)
+            m = models[i]
+            for attr in ("rp", "a", "inc", "u"):
+                setattr(m.params, attr, getattr(p, attr))
+            _, model = m.profile_chi2(w.predicted + x[5 + i])
+            out.append((w.flux - model) / w.flux_err)
+        return np.concatenate(out)
+
+    # mid-times as offsets from the predictions: finite-difference steps are
+    # relative to |x|, which at BJD ~ 2.46e6 would be hours
+    x0 = np.concatenate([[initial.radius_ratio, initial.a_over_rstar, initial.impact_parameter, initial.q1,
+                          initial.q2], np.zeros(n)])
+    t14, _ = initial.durations()
+    lo = np.concatenate([[1e-3, 1.2, 0.0, 0.0, 0.0], np.full(n, -0.3 * t14)])
+    hi = np.concatenate([[0.5, 200.0, 1.2, 1.0, 1.0], np.full(n, 0.3 * t14)])
+    x0 = np.clip(x0, lo + 1e-9, hi - 1e-9)
+    res = least_squares(residuals, x0, bounds=(lo, hi), x_scale="jac", method="trf", max_nfev=200)
+    return shape_of(res.x)
+
+
+@dataclass(frozen=True, kw_only=True)
+class MeasureOptions:
+    """How :func:`measure` reads light curves and times their transits (every field has a default).
+
+    Attributes
+    ----------
+    shape : TransitShape, optional
+        The transit shape; required unless ``fit_shape``.
+    fit_shape : bool
+        Fit the shape to all full windows first (starting from ``shape`` or
+        from a rough guess).
+    standard, preset, columns, target, observer
+        Passed to :func:`ttvkit.lightcurves.reading.read_light_curve`.
+    time_partial : bool
+        Also time windows with ingress or egress missing (flagged).
+    baseline_order : int
+        Degree of each window's polynomial baseline (0 to 3).
+    """
+
+    shape: TransitShape | None = None
+    fit_shape: bool = False
+    standard: str | None = None
+    preset: str | None = None
+    columns: dict | None = None
+    target: object = None
+    observer: object = None
+    time_partial: bool = False
+    baseline_order: int = 1
+
+    def __post_init__(self):
+        if self.shape is None and not self.fit_shape:
+            raise InputError("give a transit shape (--shape SHAPE.toml) or ask for it to be fitted (--fit-shape)")
+        if not 0 <= self.baseline_order <= 3:
+            raise InputError("--baseline-order must be 0 to 3")
+
+
+def measure(paths, ephemeris, options: MeasureOptions | None = None, *, progress: bool = True,
+            **changes) -> tuple[TimingTable, MeasureReport]:
+    """Mid-times of every transit in the light curves.
+
+    Parameters
+    ----------
+    paths : path or sequence of paths
+        Light-curve files (CSV, ECSV, FITS).
+    ephemeris : Ephemeris
+        Reference ephemeris (BJD_TDB) to find the transits and number them.
+    options : MeasureOptions, optional
+        The shape (or ``fit_shape=True``), reading options and fitting
+        options.
+    progress : bool
+    **changes
+        Fields of :class:`MeasureOptions` to set, e.g. ``shape=..., time_partial=True``.
+
+    Returns
+    -------
+    (TimingTable, MeasureReport)
+        The table has extra columns ``beta``, ``coverage`` and
+        ``white_uncertainty``; its source label is the light-curve file.
+    """
+    import os
+
+    options = replace(options, **changes) if options is not None else MeasureOptions(**changes)
+    if isinstance(paths, (str, os.PathLike)):
+        paths = [paths]
+    shape, fit_the_shape, time_partial = options.shape, options.fit_shape, options.time_partial
+    baseline_order, target = options.baseline_order, options.target
+    from tqdm.auto import tqdm
+
+    from ttvkit.lightcurves.reading import cut_windows
+
+    report = MeasureReport()
+    curves = [read_light_curve(p, options.standard, options.columns, options.preset, target, options.observer)
+              for p in paths]
+    for lc in curves:
+        report.dropped[lc.source] = lc.dropped
+    base = shape
+    if base is None:
+        rough = [w for lc in curves for w in cut_windows(lc, ephemeris, 0.2 * ephemeris.period, 0.01,
+                                                         half_width=0.15 * ephemeris.period)]
+        if not rough:
+            raise InputError("no light-curve points near any predicted transit: check the ephemeris")
+        base = guess_shape(rough, ephemeris.period)
+    t14, tau = base.durations()
+    windows = [(lc, w) for lc in curves for w in cut_windows(lc, ephemeris, t14, tau)]
+    if not windows:
+        raise InputError("no light-curve points near any predicted transit: check the ephemeris and the "
+                         "time standard")
+    if fit_the_shape:
+        full = [w for _, w in windows if w.coverage == "full"]
+        if not full:
+            raise InputError("no fully covered transit to fit the shape to; give --shape")
+        exposure = max(lc.exposure_time for lc, _ in windows)
+        base = fit_shape(full, _supersampled(base, exposure), baseline_order)
+        t14, tau = base.durations()
+        windows = [(lc, w) for lc in curves for w in cut_windows(lc, ephemeris, t14, tau)]
+    report.shape = base
+    rows = []
+    for lc, w in tqdm(windows, desc="transits", disable=not progress):
+        if w.coverage == "sparse" or (w.coverage == "partial" and not time_partial):
+            report.skipped.append({"source": w.source, "epoch": w.epoch, "reason": f"{w.coverage} coverage"
+                                   + ("" if w.coverage == "sparse" else " (use --partial to time it)")})
+            continue
+        try:
+            m = fit_mid_time(w, _supersampled(base, lc.exposure_time), baseline_order=baseline_order)
+        except InputError as exc:
+            report.skipped.append({"source": w.source, "epoch": w.epoch, "reason": str(exc)})
+            continue
+        rows.append(m)
+    if not rows:
+        raise InputError("no transit could be timed: " + "; ".join(f"{s['source']} epoch {s['epoch']}: "
+                                                                  f"{s['reason']}" for s in report.skipped[:5]))
+    report.measured = len(rows)
+    table = TimingTable([r.time for r in rows], [r.uncertainty for r in rows], epoch=[r.epoch for r in rows],
+                        kind="transit", source=[r.source for r in rows], given_standard="BJD_TDB",
+                        target=target, ephemeris=ephemeris,
+                        extra={"beta": np.array([r.beta for r in rows]),
+                               "coverage": np.array([r.coverage for r in rows]),
+                               "white_uncertainty": np.array([r.white_uncertainty for r in rows])})
+    return table, report
+
+
+def _supersampled(shape: TransitShape, exposure: float) -> TransitShape:
+    if exposure > 2.5 * SUBEXPOSURE_DAYS:
+        return replace(shape, exposure_time=exposure, supersample=int(np.ceil(exposure / SUBEXPOSURE_DAYS)))
+    return replace(shape, exposure_time=0.0, supersample=1)

@@ -21,7 +21,7 @@ Method:
    (:mod:`ttvkit.inference.gaussian_process`); its posterior mean, or that
    mean's time derivative, is the *predictor*, evaluated at each indicator
    time minus a lag (only where that falls inside the O−C data);
-2. the statistic is the largest |Pearson r| between the indicator and the
+2. the statistic is the largest absolute Pearson r between the indicator and the
    predictor over the lags;
 3. its significance comes from surrogates: the indicator's own red noise is
    modelled by a Gaussian process fitted to it alone (Matérn-3/2 or
@@ -65,7 +65,7 @@ class ActivityLink:
     target : str
         ``"period change"`` (ΔP/P = d(O−C)/dt) or ``"oc"``.
     statistic : float
-        Largest |r| over the lags.
+        Largest absolute r over the lags.
     correlation : float
         Signed r at that lag.
     lag : float
@@ -157,7 +157,7 @@ def activity_link(oc_time, oc, oc_error, indicator_time, indicator, indicator_er
     target : {"period change", "oc"}
         Compare with ΔP/P = d(O−C)/dt (default; Applegate 1992) or with O−C.
     max_lag : Quantity or float, optional
-        Largest |lag| tried (days); default a quarter of the O−C time span.
+        Largest absolute lag tried (days); default a quarter of the O−C time span.
     n_lags : int
         Lags tried, evenly from −max_lag to +max_lag.
     n_surrogates : int

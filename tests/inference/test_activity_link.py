@@ -85,6 +85,9 @@ def test_linked_indicator_recovers_the_lag_and_sign():
     # 200 d; noise, not the 17.5-d lag grid, limits it); no outside source.
     assert abs(link.lag - 200.0) <= 75.0
     assert np.isfinite(link.overlay).sum() > 100 and link.oc_curve.shape == link.curve_time.shape
+    import json
+    summary = json.loads(json.dumps(link.to_dict()))
+    assert summary["p_value"] == link.p_value and summary["lags_tried_days"][2] == link.lags.size
 
 
 def test_plain_pearson_is_fooled_where_surrogates_are_not():

@@ -205,3 +205,15 @@ def test_missing_luminosity_of_one_star_does_not_block_the_other():
     assert both["primary"].budgets is not None
     assert both["secondary"].budgets is None and "luminosity" in both["secondary"].missing
     assert both["secondary"].least_energy_ratio is None
+
+
+def test_star_budgets_to_json():
+    import json
+
+    system, wd = _nn_ser()
+    both = applegate_for_each_star(system, Star(mass=0.535 * u.Msun, radius=0.0211 * u.Rsun), 20 * u.s, 20 * u.yr)
+    text = json.dumps({k: v.to_dict() for k, v in both.items()})
+    back = json.loads(text)
+    assert back["primary"]["budgets"]["thin shell"]["energy_ratio"] == pytest.approx(
+        both["primary"].budgets["thin shell"].energy_ratio)
+    assert back["secondary"]["budgets"] is None and "luminosity" in back["secondary"]["missing"]

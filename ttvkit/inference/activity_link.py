@@ -104,6 +104,15 @@ class ActivityLink:
         """Whether p < ``alpha``."""
         return self.p_value < alpha
 
+    def to_dict(self) -> dict:
+        """Plain-JSON summary (no arrays): target, statistic, r, lag (days), p-value, surrogate model."""
+        noise = self.indicator_process
+        return {"target": self.target, "statistic": self.statistic, "correlation": self.correlation,
+                "lag_days": self.lag, "p_value": self.p_value, "n_surrogates": self.n_surrogates,
+                "lags_tried_days": [float(self.lags.min()), float(self.lags.max()), int(self.lags.size)],
+                "surrogate_process": {"kernel": noise.kernel, "amplitude": noise.amplitude,
+                                      "length_days": noise.length}}
+
     def predictor(self, at) -> np.ndarray:
         """The target curve (ΔP/P, or O−C in days) at times ``at`` — for figures."""
         return self.target_process.predict(at, derivative=self.target == "period change")

@@ -268,6 +268,11 @@ class StarBudgets:
             return None
         return min(b.energy_ratio for b in self.budgets.values())
 
+    def to_dict(self) -> dict:
+        """Plain-JSON form: role, each model's budget (``ActivityBudget.to_dict``) or what was missing."""
+        budgets = None if self.budgets is None else {k: b.to_dict() for k, b in self.budgets.items()}
+        return {"role": self.role, "budgets": budgets, "missing": self.missing}
+
 
 def swapped_system(system: System, other_star: Star) -> System:
     """The same binary with ``other_star`` as the active star and the System's star as companion.

@@ -5,9 +5,9 @@ not with a planet-transit model.  Two are given here, each returning what a
 :class:`~ttvkit.timing.table.TimingTable` row needs (time, uncertainty,
 kind):
 
-* :func:`kwee_van_woerden` — the method of Kwee & van Woerden (1956, Bull.
-  Astron. Inst. Netherlands 12, 327; the issue's "AN 74, 327" is how it is
-  often cited): the light curve is interpolated to equal time steps Δ and
+* :func:`kwee_van_woerden` — the method of Kwee & van Woerden (1956,
+  Bull. Astron. Inst. Netherlands 12, 327, as we recall it; the issue cites
+  it as AN 74, 327; the paper was not re-read here): the light curve is interpolated to equal time steps Δ and
   reflected about a trial time T; the sum of squared differences of the
   reflected pairs, S(T), is evaluated at three trial times T−Δ, T, T+Δ, a
   parabola S = A T² + B T + C is put through them, the minimum is

@@ -139,3 +139,15 @@ def test_bad_input():
         activity_link(t_oc, oc, e_oc, t_ind, bad, e_ind)
     with pytest.raises(InputError, match="values for"):
         activity_link(t_oc, oc, e_oc, t_ind, y[:-1], e_ind)
+
+
+def test_quantities_at_the_boundary():
+    # O-C given in seconds as a Quantity gives the same answer as plain days.
+    import astropy.units as u
+
+    t_oc, oc, e_oc, t_ind, y, e_ind = _linked(np.random.default_rng(8))
+    plain = activity_link(t_oc, oc, e_oc, t_ind, y, e_ind, n_surrogates=49, seed=2)
+    quantity = activity_link(t_oc * u.day, (oc * u.day).to(u.s), (e_oc * u.day).to(u.s), t_ind * u.day, y, e_ind,
+                             n_surrogates=49, seed=2)
+    assert quantity.p_value == plain.p_value
+    assert quantity.correlation == pytest.approx(plain.correlation, rel=1e-9)

@@ -17,10 +17,11 @@ from simulate import PERIOD, simulate
 
 SCENARIOS = ("null", "decay", "modulation")
 
-#: Internal parameters (days) of each scenario: a −5e-10 d/epoch dP/dE is a 300-s quadratic O−C over
-#: 4000 epochs (well above 30-s errors); a 100-s modulation of period 3000 d.
+#: Internal parameters (days) of each scenario: a −2e-9 d/epoch dP/dE (dP/dt = −31.6 ms/yr, of the size
+#: measured on the fastest-decaying hot Jupiter) is a 1400-s quadratic O−C over 4000 epochs, far above 30-s
+#: errors; a 100-s modulation of period 3000 d.
 _THETA = {"null": ("constant-period", [0.0, PERIOD]),
-          "decay": ("orbital-decay", [0.0, PERIOD, -5e-10]),
+          "decay": ("orbital-decay", [0.0, PERIOD, -2e-9]),
           "modulation": ("sinusoidal-modulation", [0.0, PERIOD, 100 / 86400, 0.0, 3000.0])}
 
 _SYSTEM = """\

@@ -19,8 +19,8 @@ from ttvkit.survey import read_manifest, read_target, run_survey
 
 #: A fixed forecast start, so that a report written now and one written later are byte-equal.
 NOW = 2461000.5
-N_TARGETS = 21          # 7 nulls, 7 decays, 7 modulations; the last (a modulation) planted broken
-BROKEN = 20
+N_TARGETS = 20          # 7 nulls, 7 decays, 6 modulations; the last (a decay) planted broken
+BROKEN = 19
 
 
 def options():
@@ -68,24 +68,26 @@ def test_report_folder_equals_a_single_target_run(survey, tmp_path, i):
 
 
 def test_summary_finds_the_injected_signals(survey):
-    """Injection and recovery (derived): the decays' dP/dt within 3σ of the injected −7.89 ms/yr
-    (dP/dE/P = −5e-10/2 d/d → −2.5e-10 s/s × 3.156e10 ms/yr per s/s), the modulations best explained by
-    a modulation, the nulls not drifting (constant period within 6 of the best BIC, the survey's
-    REJECT-like screen: common practice, no source)."""
+    """Injection and recovery (derived): the decays' dP/dt within 3σ of the injected −31.56 ms/yr
+    (dP/dE/P = −2e-9/2 d/d → −1e-9 s/s × 3.156e10 ms/yr per s/s) and a constant period disfavoured; the
+    modulations best explained by a modulation; the nulls not drifting: the constant period within
+    ΔBIC 10 of the best, "very strong" evidence on the scale of Kass & Raftery 1995, JASA 90, 773 (from
+    memory)."""
     frame = survey[2].summary
     done = frame[frame["status"] == "done"].set_index("target")
-    injected = -5e-10 / 2.0 * 365.25 * 86400e3
+    injected = -2e-9 / 2.0 * 365.25 * 86400e3
     for name, row in done.iterrows():
         kind = scenario(name)
         if kind == "decay":
+            # 3σ of the fit's own 1σ: with six decays a miss by chance has odds of about 1 in 60
             assert row["dP_dt"] == pytest.approx(injected, abs=3 * row["dP_dt_err"])
             assert row["delta_bic[constant-period]"] > 10
         elif kind == "modulation":
             assert row["best"] == "sinusoidal-modulation"
         else:
-            assert row["delta_bic[constant-period]"] < 6
+            assert row["delta_bic[constant-period]"] < 10
     kinds = [scenario(n) for n in done.index]
-    assert kinds.count("null") == 7 and kinds.count("decay") == 7 and kinds.count("modulation") == 6
+    assert kinds.count("null") == 7 and kinds.count("decay") == 6 and kinds.count("modulation") == 6
 
 
 def test_summary_files(survey):

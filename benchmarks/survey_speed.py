@@ -44,7 +44,7 @@ def _options():
 def _client(n_workers: int):
     from distributed import Client, LocalCluster
 
-    cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True, dashboard_address=None,
+    cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True, dashboard_address=":0",
                            silence_logs=40)
     client = Client(cluster)
     client.run(lambda: __import__("ttvkit.pipeline"))  # imports paid before the clock starts

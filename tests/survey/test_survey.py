@@ -31,7 +31,7 @@ def options():
 def cluster():
     from distributed import Client, LocalCluster
 
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0",
                       silence_logs=40) as local, Client(local) as client:
         yield client
 

@@ -165,11 +165,15 @@ def _dask_client(scheduler: str | None, n_workers: int):
     from distributed import Client, LocalCluster
 
     if scheduler:
-        return Client(scheduler)
+        try:
+            return Client(scheduler, timeout="30s")
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise InputError(f"cannot reach the dask scheduler at {scheduler!r} ({exc}); start it or check "
+                             "the address (tcp://HOST:PORT)") from None
     if n_workers < 1:
         raise InputError(f"a survey needs at least one worker (got {n_workers})")
     cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
-                           dashboard_address=None, silence_logs=40)
+                           dashboard_address=":0", silence_logs=40)
     return Client(cluster)
 
 

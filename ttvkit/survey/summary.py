@@ -12,9 +12,8 @@ the key derived numbers with their 1σ half-widths, and the warnings.
 from __future__ import annotations
 
 import html
+import io
 import json
-import os
-import tempfile
 from pathlib import Path
 
 from ttvkit.io.readers import atomic_write_text
@@ -81,15 +80,9 @@ def write_summary_ecsv(frame, path: Path) -> Path:
                 table[column].unit = unit
     table.meta["comments"] = ["ttvkit survey summary: one row per target; the verdict is a plausibility "
                               "screen, not a proof."]
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    os.close(fd)
-    try:
-        table.write(tmp, format="ascii.ecsv", overwrite=True)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    buffer = io.StringIO()
+    table.write(buffer, format="ascii.ecsv")
+    atomic_write_text(path, buffer.getvalue(), overwrite=True)
     return path
 
 

@@ -88,9 +88,9 @@ def test_killed_survey_rerun_has_every_target_once(tmp_path):
 
 @pytest.mark.slow
 def test_killed_larger_survey_on_two_workers(tmp_path):
-    n = 24
+    n = 12
     manifest = write_targets(tmp_path / "in", n, n_points=30, columns={"hypotheses": ";".join(TEST_HYPOTHESES)})
     out = tmp_path / "survey"
-    finished_before, stdout = _run(manifest, out, n, kill_after=9, workers=2)
+    finished_before, stdout = _run(manifest, out, n, kill_after=5, workers=2)
     assert f"{finished_before} finished earlier" in stdout
     _check_each_once(out, [target_name(i) for i in range(n)])

@@ -42,9 +42,6 @@ from ttvkit.timing.ephemeris import KINDS, Ephemeris
 
 __all__ = ["TimingTable"]
 
-#: Two rows of one source and kind closer than this (0.086 s) are the same row twice.
-_DUPLICATE_DAYS = 1e-6
-
 
 class TimingTable:
     """A validated table of mid-times in BJD_TDB.
@@ -202,17 +199,23 @@ class TimingTable:
                                        "period_days": self.ephemeris.period}
         return table
 
-    def write(self, path: "str | os.PathLike", overwrite: bool = False) -> Path:
-        """Write the table as ECSV (atomically; refuses to overwrite unless asked)."""
+    def write(self, path: "str | os.PathLike", overwrite: bool = False, meta: dict | None = None) -> Path:
+        """Write the table as ECSV (atomically; refuses to overwrite unless asked).
+
+        ``meta`` adds entries to the ECSV header (e.g. the edits made to the table).
+        """
         buffer = io.StringIO()
-        self.to_astropy().write(buffer, format="ascii.ecsv")
+        table = self.to_astropy()
+        table.meta.update(meta or {})
+        table.write(buffer, format="ascii.ecsv")
         return atomic_write_text(path, buffer.getvalue(), overwrite=overwrite)
 
     @classmethod
     def read(cls, path: "str | os.PathLike", standard: str | None = None,
              target: SkyCoord | None = None, observer: EarthLocation | None = None,
              ephemeris: Ephemeris | None = None, columns: dict | None = None,
-             units: dict | None = None, source: str | None = None) -> "TimingTable":
+             units: dict | None = None, source: str | None = None, drop_rows=(),
+             bare_bjd: str | None = None) -> "TimingTable":
         """Read a CSV or ECSV timing table and convert it to BJD_TDB.
 
         Parameters
@@ -236,6 +239,12 @@ class TimingTable:
             Units of columns whose header carries none, e.g. ``{"uncertainty": "s"}``.
         source : str, optional
             Source label for rows without one (default: the file name).
+        drop_rows : sequence of int, optional
+            Data rows of the file (1-based, as errors name them) to leave out
+            before anything is checked.
+        bare_bjd : str, optional
+            What a row labelled only ``BJD`` means (e.g. ``"BJD_TDB"``); without
+            it such rows are refused.  Used rows are named in a warning.
 
         Returns
         -------
@@ -251,7 +260,7 @@ class TimingTable:
 
         return build_table(cls, raw, standard=standard, target=target, observer=observer,
                            ephemeris=ephemeris, columns=columns or {}, units=units or {},
-                           source=source or Path(path).name)
+                           source=source or Path(path).name, drop_rows=drop_rows, bare_bjd=bare_bjd)
 
     def relabel_source(self, source: str, standard: str) -> "TimingTable":
         """A copy in which ``source``'s times are re-read as given in ``standard``.

@@ -7,7 +7,7 @@ import argparse
 from ttvkit.errors import InputError
 
 __all__ = ["add_target_options", "add_table_options", "parse_target", "parse_observer", "parse_columns",
-           "parse_quantity", "read_table_from_args", "read_edited_table", "table_edits"]
+           "parse_quantity", "read_table_from_args", "read_edited_table", "table_edits", "require_rows"]
 
 
 def add_target_options(p: argparse.ArgumentParser) -> None:
@@ -99,11 +99,20 @@ def table_edits(args):
                       exclude_sources=tuple(args.exclude_source), drop_rows=parse_rows(args.drop_rows))
 
 
-def read_edited_table(args):
-    """The table with every edit applied: ``(table, edits, notes)``."""
+def read_edited_table(args, minimum: int = 1):
+    """The table with every edit applied: ``(table, edits, notes)``; fewer than ``minimum`` rows refused."""
     edits = table_edits(args)
     table, notes = edits.apply(read_table_from_args(args))
+    require_rows(table, minimum, args.table)
     return table, edits, notes
+
+
+def require_rows(table, minimum: int, path) -> None:
+    """Refuse a table too short for a comparison of hypotheses, saying why."""
+    if len(table) < minimum:
+        raise InputError(f"{path}: has {len(table)} mid-time(s) after edits; a period change needs at "
+                         f"least {minimum} mid-times (three fix a parabola exactly, with nothing left to "
+                         "test it)")
 
 
 def read_table_from_args(args):

@@ -67,7 +67,7 @@ def add_commands(sub) -> None:
 
 
 def _cmd_diagnose(args) -> int:
-    from ttvkit.cli.common import parse_target, read_table_from_args
+    from ttvkit.cli.common import parse_target, read_table_from_args, require_rows
     from ttvkit.diagnosis.diagnose import DiagnosisOptions
     from ttvkit.errors import InputError
     from ttvkit.inference.likelihood import Likelihood
@@ -77,11 +77,17 @@ def _cmd_diagnose(args) -> int:
 
     from ttvkit.io.outdir import check_folder
 
+    if not args.years > 0:  # before any reading or fitting
+        raise InputError(f"--years {args.years:g}: the forecast horizon must be positive")
+    if args.precision is not None and not args.precision > 0:
+        raise InputError(f"--precision {args.precision:g}: a timing precision must be positive (seconds)")
+
     check_folder(args.out, args.force, inputs=[args.table, args.system, args.shape, *args.light_curves])
     system = System.from_toml(args.system)
     if parse_target(args) is None and system.star.ra is not None and system.star.dec is not None:
         args.ra, args.dec = str(system.star.ra.to_value("deg")), str(system.star.dec.to_value("deg"))
     table = read_table_from_args(args)
+    require_rows(table, 4, args.table)
     if args.steps < 100 or args.perturber_steps < 100:
         raise InputError("--steps and --perturber-steps must be at least 100")
     if args.light_curves:

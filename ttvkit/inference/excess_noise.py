@@ -81,6 +81,8 @@ def decide_excess_noise(table, likelihood: Likelihood | None = None, context=Non
     from ttvkit.inference.fitting import fit
 
     like = likelihood or Likelihood()
+    if len(table.time) < 5:  # a quadratic leaves no degree of freedom to judge the scatter by
+        return ExcessNoiseDecision(like, False, float("nan"), 0, float("nan"), None)
     ref = fit(table, REFERENCE, Likelihood(), context=context)
     dof = int(ref.dof)
     p_high = float(chi2_distribution.sf(ref.chi2, dof))

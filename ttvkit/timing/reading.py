@@ -19,7 +19,7 @@ from ttvkit.timing.intake_checks import (IntakeWarning, Problems, check_given_ep
                                          check_uncertainties, converted, handle_repeats, place_rows)
 from ttvkit.timing.standards import parse_standard, target_from_meta, to_bjd_tdb
 
-__all__ = ["build_table"]
+__all__ = ["build_table", "raw_from_table"]
 
 _KNOWN = ("epoch", "time", "uncertainty", "kind", "source", "standard", "given_standard")
 
@@ -200,6 +200,32 @@ def _extra_columns(raw, names) -> dict:
         except (TypeError, ValueError):
             extra[name] = arr.astype(str)
     return extra
+
+
+def raw_from_table(table) -> RawTable:
+    """A RawTable from an astropy Table/QTable or a pandas DataFrame (rows numbered from 1)."""
+    from astropy.table import Table
+
+    if hasattr(table, "to_dict") and hasattr(table, "columns") and not isinstance(table, Table):
+        try:
+            table = Table.from_pandas(table)
+        except Exception as exc:  # pandas/astropy raise many types for odd frames
+            raise InputError(f"the DataFrame cannot be read as a table ({type(exc).__name__})") from None
+    if not isinstance(table, Table):
+        raise InputError(f"expected an astropy Table, QTable or pandas DataFrame, not {type(table).__name__}")
+    if len(table) == 0:
+        raise InputError("the table has no rows")
+    columns, units = {}, {}
+    for name in table.colnames:
+        col = table[name]
+        key = str(name).strip().lower()
+        values = col.value if hasattr(col, "value") and hasattr(col, "unit") else np.asarray(col)
+        mask = np.ma.getmaskarray(col) if hasattr(col, "mask") else np.zeros(len(col), bool)
+        columns[key] = [None if m else (v.item() if hasattr(v, "item") else v)
+                        for v, m in zip(np.asarray(values), mask)]
+        if getattr(col, "unit", None) is not None:
+            units[key] = col.unit
+    return RawTable("table", columns, units, list(range(1, len(table) + 1)), dict(table.meta))
 
 
 def _select_rows(raw: RawTable, drop_rows) -> RawTable:

@@ -79,7 +79,7 @@ class TimingTable:
                  ephemeris: Ephemeris | None = None, extra: dict | None = None):
         self.time = _days(time, "time")
         n = self.time.size
-        self.uncertainty = np.broadcast_to(_days(uncertainty, "uncertainty"), (n,)).copy()
+        self.uncertainty = _sized(_days(uncertainty, "uncertainty"), n, "uncertainty")
         self.kind = _column(kind, n, "kind")
         self.source = _column(source, n, "source")
         self.given_standard = _column(given_standard, n, "given_standard")
@@ -100,13 +100,15 @@ class TimingTable:
                                      "reference ephemeris (T0, P) to assign them")
             self.epoch = ephemeris.assign_epochs(self.time, self.kind)
         else:
-            raw_epoch = np.broadcast_to(np.asarray(epoch), (n,))
-            as_float = raw_epoch.astype(float)
+            raw_epoch = _sized(np.atleast_1d(np.asarray(epoch)), n, "epoch")
+            try:
+                as_float = raw_epoch.astype(float)
+            except (TypeError, ValueError):
+                raise InputError("epoch: values must be integers") from None
             if np.any(as_float != np.round(as_float)):
                 raise InputError("epoch values must be integers")
             self.epoch = as_float.astype(np.int64)
-        self.extra = {k: np.broadcast_to(np.asarray(v), (n,)).copy()
-                      for k, v in (extra or {}).items()}
+        self.extra = {k: _sized(np.atleast_1d(np.asarray(v)), n, str(k)) for k, v in (extra or {}).items()}
 
     # ------------------------------------------------------------------ basics
     def __len__(self) -> int:
@@ -167,6 +169,37 @@ class TimingTable:
         return ((self.time - eph.predict(self.epoch, self.kind)) * u.day).to(u.s)
 
     # --------------------------------------------------------------- in & out
+    @classmethod
+    def from_table(cls, table, standard: str | None = None, **kwargs) -> "TimingTable":
+        """A TimingTable from an astropy Table/QTable or a pandas DataFrame.
+
+        The columns are read as in :meth:`read` (``time``, ``uncertainty``,
+        optionally ``epoch``, ``kind``, ``source``, ``standard``; a column
+        with a unit carries it; other names through ``columns=``), and every
+        check of a file applies, rows numbered from 1.
+
+        Parameters
+        ----------
+        table : astropy.table.Table, QTable or pandas.DataFrame
+        standard : str, optional
+            Standard of rows without one.
+        **kwargs
+            As for :meth:`read` (target, observer, ephemeris, columns, units,
+            source, drop_rows, bare_bjd).
+        """
+        from ttvkit.timing.reading import build_table, raw_from_table
+
+        raw = raw_from_table(table)
+        kwargs.setdefault("source", "table")
+        return build_table(cls, raw, standard=standard, target=kwargs.pop("target", None),
+                           observer=kwargs.pop("observer", None), ephemeris=kwargs.pop("ephemeris", None),
+                           columns=kwargs.pop("columns", None) or {}, units=kwargs.pop("units", None) or {},
+                           **kwargs)
+
+    def to_pandas(self):
+        """The table as a pandas DataFrame (times and uncertainties in days, BJD_TDB)."""
+        return self.to_astropy().to_pandas()
+
     def to_astropy(self):
         """The table as an :class:`astropy.table.Table` with units and metadata."""
         from astropy.table import Table
@@ -305,6 +338,15 @@ def _days(values, name: str) -> np.ndarray:
         return np.atleast_1d(np.asarray(values, dtype=float)).copy()
     except (TypeError, ValueError):
         raise InputError(f"{name}: values must be numbers") from None
+
+
+def _sized(values: np.ndarray, n: int, name: str) -> np.ndarray:
+    """One value per row (a single value is repeated); a clear error for a wrong length."""
+    if values.ndim == 1 and values.size == n:
+        return values.copy()
+    if values.size == 1:
+        return np.full(n, values.ravel()[0], dtype=values.dtype)
+    raise InputError(f"{name}: has {values.size} values for {n} mid-times; give one per mid-time")
 
 
 def _column(values, n: int, name: str) -> np.ndarray:

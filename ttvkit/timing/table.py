@@ -145,7 +145,8 @@ class TimingTable:
         keys = set().union(*(t.extra for t in tables))
         extra = {}
         for k in keys:
-            parts = [t.extra[k] if k in t.extra else np.full(len(t), np.nan if k == "beta" else "")
+            numeric = all(np.asarray(t.extra[k]).dtype.kind in "fiub" for t in tables if k in t.extra)
+            parts = [t.extra[k] if k in t.extra else np.full(len(t), np.nan if numeric else "")
                      for t in tables]
             extra[k] = np.concatenate([np.asarray(p, dtype=object) for p in parts])
             try:

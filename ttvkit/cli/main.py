@@ -55,6 +55,8 @@ def main(argv: list[str] | None = None) -> int:
         for w in caught:
             if issubclass(w.category, TtvkitWarning):
                 print(f"warning: {w.message}", file=sys.stderr)
+            elif w.category.__module__.split(".")[0] in ("erfa", "astropy"):  # never swallowed
+                print(f"warning: (time conversion) {_one_line(str(w.message))}", file=sys.stderr)
         return status
     except TtvkitError as exc:
         if args.debug:

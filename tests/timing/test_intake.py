@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import warnings
 
+import numpy as np
 import pytest
 
 from ttvkit.errors import EphemerisError, InputError, TimeStandardError
@@ -162,3 +163,12 @@ def test_to_bjd_tdb_accepts_an_astropy_time():
     t = Time([2456000.5], format="jd", scale="utc")
     # the same numbers given as plain days must give the same BJD_TDB (consistency of the two paths)
     assert to_bjd_tdb(t, "HJD_UTC", target)[0] == to_bjd_tdb([2456000.5], "HJD_UTC", target)[0]
+
+
+def test_merged_table_keeps_numeric_columns_numeric():
+    # a literature table (no white_uncertainty) joined with a measured one: the column stays float
+    lit = TimingTable([2456000.0, 2456002.0], 1e-3, epoch=[0, 1])
+    measured = TimingTable([2456004.0], 1e-3, epoch=[2], extra={"white_uncertainty": [8e-4]})
+    merged = TimingTable.concatenate([lit, measured])
+    assert merged.extra["white_uncertainty"].dtype.kind == "f"
+    assert np.isnan(merged.extra["white_uncertainty"][0]) and merged.extra["white_uncertainty"][2] == 8e-4

@@ -319,7 +319,8 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
     if comparison.best.name != "constant-period":  # does one row or source decide the detection?
         from ttvkit.inference.leverage import find_leverage
 
-        notes += [{"kind": "leverage", "message": lev.message()} for lev in find_leverage(comparison.best, table)]
+        notes += [{"kind": "leverage", "message": lev.message()} for lev in
+                  find_leverage(comparison.best, table, context=HostContext.from_system(system))]
     assessments = [_assess(f, comparison.delta_bic(f), system) for f in comparison.fits]
     standing = [a.fit for a in assessments if a.stands]
     duration = None

@@ -73,10 +73,13 @@ def find_leverage(result, table, context=None) -> list:
     Returns
     -------
     list of Leverage
-        Empty when no single row or source decides a detection.
+        Empty when no single row or source decides a detection, and for
+        expensive (N-body) hypotheses, whose refits would take minutes.
     """
     from ttvkit.inference.fitting import fit
 
+    if result.hypothesis.expensive:  # an N-body refit per candidate would take minutes: not examined
+        return []
     names = list(result.parameter_table())[:result.hypothesis.n_parameters]
     jac = _jacobian(result)
     resid = result.residuals() / result.data.sigma

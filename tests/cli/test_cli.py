@@ -42,7 +42,7 @@ BAD_TABLES = {
     "missing.csv": "epoch,uncertainty\n0,0.001\n",
     "nan.csv": "epoch,time,uncertainty\n0,nan,0.001\n",
     "negative.csv": "epoch,time,uncertainty\n0,2456000.0,-0.001\n",
-    "dup.csv": "epoch,time,uncertainty\n0,2456000.0,0.001\n0,2456000.0,0.001\n",
+    "mjd.csv": "epoch,time,uncertainty\n0,56000.0,0.001\n",  # an MJD labelled BJD_TDB (issue 13)
     "kind.csv": "epoch,time,uncertainty,kind\n0,2456000.0,0.001,flare\n",
     "std.csv": "epoch,time,uncertainty,standard\n0,2456000.0,0.001,GPS\n",
     "unit.csv": "epoch,time,uncertainty [zz]\n0,2456000.0,0.001\n",

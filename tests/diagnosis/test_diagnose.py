@@ -106,5 +106,11 @@ def test_interrupted_report_leaves_nothing(tmp_path, monkeypatch):
     with pytest.raises(OutputExistsError):
         report_module.write_report(d, tmp_path / "out")
     assert (tmp_path / "out" / "keep.txt").read_text() == "mine"
-    report_module.write_report(d, tmp_path / "out", force=True)
-    assert (tmp_path / "out" / "report.html").exists() and not (tmp_path / "out" / "keep.txt").exists()
+    # --force replaces only ttvkit's own outputs (issue 13): the user's file stops it and survives
+    with pytest.raises(OutputExistsError, match="did not write"):
+        report_module.write_report(d, tmp_path / "out", force=True)
+    assert (tmp_path / "out" / "keep.txt").read_text() == "mine"
+    (tmp_path / "out" / "keep.txt").unlink()
+    report_module.write_report(d, tmp_path / "out")
+    report_module.write_report(d, tmp_path / "out", force=True)  # its own earlier report is replaced
+    assert (tmp_path / "out" / "report.html").exists()

@@ -102,7 +102,6 @@ BAD = [
     ("epoch,time,uncertainty\n0,nan,0.001\n", r"row 1, column 'time'.*finite", {}),
     ("epoch,time,uncertainty\n0,2456000.0,-0.001\n", r"row 1, column 'uncertainty'.*positive", {}),
     ("epoch,time,uncertainty\n0,2456000.0,0\n", r"column 'uncertainty'.*positive", {}),
-    ("epoch,time,uncertainty\n0,2456000.0,0.001\n0,2456000.0,0.001\n", r"row 2.*duplicates row 1", {}),
     ("epoch,time,uncertainty,kind\n0,2456000.0,0.001,flare\n", r"column 'kind'.*unknown kind", {}),
     ("epoch,time,uncertainty,standard\n0,2456000.0,0.001,BJD\n", r"column 'standard'.*ambiguous", {}),
     ("epoch,time,uncertainty,standard\n0,2456000.0,0.001,GPS\n", r"row 1.*unknown time standard", {}),

@@ -46,6 +46,9 @@ def _cmd_budget(args) -> int:
     period = parse_quantity(args.modulation_period, "yr", "--modulation-period")
     if amplitude.value <= 0 or period.value <= 0:
         raise InputError("--amplitude and --modulation-period must be positive")
+    if not 0 < args.shell_mass < 1:
+        raise InputError(f"--shell-mass {args.shell_mass:g} must be a fraction of the star's mass, "
+                         "strictly between 0 and 1 (e.g. 0.1)")
     budgets = activity_budgets(system, amplitude, period, shell_mass_fraction=args.shell_mass)
     if args.json:
         print(json.dumps({"system": system.name, "models": {k: b.to_dict() for k, b in budgets.items()},

@@ -7,7 +7,7 @@ import argparse
 from ttvkit.errors import InputError
 
 __all__ = ["add_target_options", "add_table_options", "parse_target", "parse_observer", "parse_columns",
-           "parse_quantity", "read_table_from_args"]
+           "parse_quantity", "read_table_from_args", "read_edited_table", "table_edits", "require_rows"]
 
 
 def add_target_options(p: argparse.ArgumentParser) -> None:
@@ -29,6 +29,14 @@ def add_table_options(p: argparse.ArgumentParser) -> None:
                    help="map a column, e.g. --column time=HJD (repeatable)")
     p.add_argument("--uncertainty-unit", help="unit of the uncertainty column when its header has none "
                                               "(default: d)")
+    p.add_argument("--bare-bjd", metavar="STANDARD",
+                   help="what rows labelled only 'BJD' mean, e.g. BJD_TDB (a warning names them)")
+    p.add_argument("--drop-rows", metavar="ROWS", default="",
+                   help="leave out these data rows of the file, e.g. 12,40 or 12-14 (as errors number them)")
+    p.add_argument("--relabel", action="append", default=[], metavar="SOURCE=STANDARD",
+                   help="re-read one source's times in another standard (repeatable)")
+    p.add_argument("--exclude-source", action="append", default=[], metavar="SOURCE",
+                   help="leave a source out (repeatable)")
     add_target_options(p)
 
 
@@ -83,8 +91,34 @@ def parse_observer(args):
     return make_observer(*parts)
 
 
+def table_edits(args):
+    """The TableEdits a command's options ask for."""
+    from ttvkit.timing.edits import TableEdits, parse_relabel, parse_rows
+
+    return TableEdits(relabel=dict(parse_relabel(item) for item in args.relabel),
+                      exclude_sources=tuple(args.exclude_source), drop_rows=parse_rows(args.drop_rows))
+
+
+def read_edited_table(args, minimum: int = 1):
+    """The table with every edit applied: ``(table, edits, notes)``; fewer than ``minimum`` rows refused."""
+    edits = table_edits(args)
+    table, notes = edits.apply(read_table_from_args(args))
+    require_rows(table, minimum, args.table)
+    return table, edits, notes
+
+
+def require_rows(table, minimum: int, path) -> None:
+    """Refuse a table too short for a comparison of hypotheses, saying why."""
+    if len(table) < minimum:
+        raise InputError(f"{path}: has {len(table)} mid-time(s) after edits; a period change needs at "
+                         f"least {minimum} mid-times (three fix a parabola exactly, with nothing left to "
+                         "test it)")
+
+
 def read_table_from_args(args):
-    """A TimingTable from a command's table options."""
+    """A TimingTable from a command's table options (rows of --drop-rows left out)."""
+    from ttvkit.timing.edits import parse_rows
+
     from ttvkit.timing.table import Ephemeris, TimingTable
 
     columns = parse_columns(args.column, example="time=HJD")
@@ -92,4 +126,5 @@ def read_table_from_args(args):
     ephemeris = Ephemeris.parse(args.ephemeris) if args.ephemeris else None
     return TimingTable.read(args.table, standard=args.standard, target=parse_target(args),
                             observer=parse_observer(args), ephemeris=ephemeris,
-                            columns=columns, units=units)
+                            columns=columns, units=units, drop_rows=parse_rows(args.drop_rows),
+                            bare_bjd=args.bare_bjd)

@@ -38,10 +38,6 @@ def add_commands(sub) -> None:
                    help="also time these light curves (CSV/ECSV/FITS, BJD_TDB) and add their mid-times")
     p.add_argument("--shape", metavar="SHAPE.toml",
                    help="transit shape for --light-curves (default: fitted to the light curves)")
-    p.add_argument("--relabel", action="append", default=[], metavar="SOURCE=STANDARD",
-                   help="re-read one source's times in another standard (repeatable)")
-    p.add_argument("--exclude-source", action="append", default=[], metavar="SOURCE",
-                   help="leave a source out (repeatable)")
     p.add_argument("--no-sample", action="store_true", help="skip posterior sampling (faster)")
     p.add_argument("--steps", type=int, default=3000, help="sampler steps per walker (default 3000)")
     p.add_argument("--seed", type=int, default=0, help="sampler seed (default 0)")
@@ -50,6 +46,8 @@ def add_commands(sub) -> None:
                                                    "(default: median of the recent uncertainties)")
     p.add_argument("--robust", action="store_true", help="Student-t likelihood (outliers cost little)")
     p.add_argument("--jitter", action="store_true", help="fit an extra white timing noise")
+    p.add_argument("--no-excess-noise", action="store_true",
+                   help="do not add an excess-noise term when chi2 is too large for its dof (p < 0.01)")
     p.add_argument("--no-progress", action="store_true", help="no progress bars")
     p.add_argument("--json", action="store_true", help="print diagnosis.json's content on stdout")
     p.add_argument("--fit-perturber", action="store_true",
@@ -69,18 +67,27 @@ def add_commands(sub) -> None:
 
 
 def _cmd_diagnose(args) -> int:
-    from ttvkit.cli.common import parse_target, read_table_from_args
+    from ttvkit.cli.common import parse_target, read_table_from_args, require_rows
     from ttvkit.diagnosis.diagnose import DiagnosisOptions
     from ttvkit.errors import InputError
     from ttvkit.inference.likelihood import Likelihood
     from ttvkit.physics import System
     from ttvkit.pipeline import run_diagnosis
-    from ttvkit.timing.edits import TableEdits, parse_relabel
+    from ttvkit.cli.common import table_edits
 
+    from ttvkit.io.outdir import check_folder
+
+    if not args.years > 0:  # before any reading or fitting
+        raise InputError(f"--years {args.years:g}: the forecast horizon must be positive")
+    if args.precision is not None and not args.precision > 0:
+        raise InputError(f"--precision {args.precision:g}: a timing precision must be positive (seconds)")
+
+    check_folder(args.out, args.force, inputs=[args.table, args.system, args.shape, *args.light_curves])
     system = System.from_toml(args.system)
     if parse_target(args) is None and system.star.ra is not None and system.star.dec is not None:
         args.ra, args.dec = str(system.star.ra.to_value("deg")), str(system.star.dec.to_value("deg"))
     table = read_table_from_args(args)
+    require_rows(table, 4, args.table)
     if args.steps < 100 or args.perturber_steps < 100:
         raise InputError("--steps and --perturber-steps must be at least 100")
     if args.light_curves:
@@ -106,9 +113,9 @@ def _cmd_diagnose(args) -> int:
     options = DiagnosisOptions(sampled=not args.no_sample, n_steps=args.steps, seed=args.seed,
                                forecast_years=args.years, timing_precision_s=args.precision, likelihood=like,
                                progress=not args.no_progress and not args.json, perturber_map=perturber_map,
-                               fit_perturber=args.fit_perturber, perturber_steps=args.perturber_steps)
-    edits = TableEdits(relabel=dict(parse_relabel(item) for item in args.relabel),
-                       exclude_sources=tuple(args.exclude_source))
+                               fit_perturber=args.fit_perturber, perturber_steps=args.perturber_steps,
+                               excess_noise=not args.no_excess_noise)
+    edits = table_edits(args)
     try:
         run = run_diagnosis(table, system, args.out, options, edits=edits, force=args.force,
                             map_executor=map_executor, say=say)

@@ -42,6 +42,8 @@ def _common(p):
     p.add_argument("--steps", type=int, default=3000, help="sampler steps per walker (default 3000)")
     p.add_argument("--seed", type=int, default=0, help="random seed of the sampler (default 0)")
     p.add_argument("--jitter", action="store_true", help="fit an extra white timing noise")
+    p.add_argument("--no-excess-noise", action="store_true",
+                   help="do not add an excess-noise term when chi2 is too large for its dof (p < 0.01)")
     p.add_argument("--robust", action="store_true",
                    help="Student-t likelihood (nu = 4): outliers cost little")
     p.add_argument("--require-convergence", action="store_true",
@@ -77,37 +79,62 @@ def _likelihood(args):
 
 
 def _run(args, hypotheses):
-    from ttvkit.cli.common import read_table_from_args
+    """The fit (or comparison) and what the output must say about the table: ``(result, extra)``."""
+    from ttvkit.cli.common import read_edited_table
     from ttvkit.errors import InputError
+    from ttvkit.inference.excess_noise import decide_excess_noise
     from ttvkit.inference.fitting import compare, fit, sample
+    from ttvkit.inference.leverage import find_leverage
 
     if args.steps < 100:
         raise InputError("--steps must be at least 100")
-    table = read_table_from_args(args)
+    table, edits, notes = read_edited_table(args, minimum=4 if len(hypotheses) > 1 else 1)
+    extra = {"table_edits": edits.to_dict(), "table_notes": notes}
     context = None
     if args.system:
         from ttvkit.diagnosis.diagnose import timing_context
         from ttvkit.physics.system import System
 
         context = timing_context(System.from_toml(args.system))
+    like = _likelihood(args)
+    if not args.no_excess_noise:
+        decision = decide_excess_noise(table, like, context=context)
+        like = decision.likelihood
+        extra["excess_noise"] = decision.to_dict()
     if len(hypotheses) == 1:
-        result = fit(table, hypotheses[0], _likelihood(args), context=context)
+        result = fit(table, hypotheses[0], like, context=context)
+        extra["leverage"] = find_leverage(result, table, context=context)
         if args.sample:
             result = sample(result, n_steps=args.steps, seed=args.seed, progress=not args.no_progress,
                             require_convergence=args.require_convergence)
-        return result
-    return compare(table, hypotheses, _likelihood(args), context=context, sampled=args.sample, n_steps=args.steps,
-                   seed=args.seed, progress=not args.no_progress)
+        return result, extra
+    return compare(table, hypotheses, like, context=context, sampled=args.sample, n_steps=args.steps,
+                   seed=args.seed, progress=not args.no_progress), extra
+
+
+def _say_extra(extra: dict) -> None:
+    """Notes on the table, the excess noise and leverage, to stderr."""
+    import sys
+
+    for note in extra.get("table_notes", []):
+        print(f"note: {note}", file=sys.stderr)
+    message = extra.get("excess_noise", {}).get("message")
+    if message:
+        print(f"note: {message}", file=sys.stderr)
+    for lev in extra.get("leverage", []):
+        print(f"warning: {lev.message()}", file=sys.stderr)
 
 
 def _print_fit(d: dict) -> None:
+    from ttvkit.report.numbers import format_value
+
     print(f"{d['hypothesis']}: chi2 = {d['chi2']:.2f} for {d['dof']} dof "
           f"(reduced {d['reduced_chi2']:.2f}); BIC {d['bic']:.2f}; AIC {d['aic']:.2f}; "
           f"{d['likelihood']}{'; sampled' if d['sampled'] else ''}")
     for section in ("parameters", "derived"):
         print(f"  {section}:")
         for name, v in d[section].items():
-            print(f"    {name:24s} {v['value']:.10g} -{v['lower']:.3g} +{v['upper']:.3g} {v['unit']}")
+            print(f"    {name:24s} {format_value(v['value'], v['lower'], v['upper'])} {v['unit']}")
     for w in d["warnings"]:
         print(f"  warning: {w}")
 
@@ -116,21 +143,25 @@ def _cmd_fit(args) -> int:
     from ttvkit.hypotheses import get_hypothesis
 
     get_hypothesis(args.hypothesis)  # unknown names fail before any work
-    result = _run(args, [args.hypothesis])
+    result, extra = _run(args, [args.hypothesis])
     d = result.to_dict()
+    d.update({k: v for k, v in extra.items() if k != "leverage"})
+    d["leverage"] = [dict(lev, message=lev.message()) for lev in extra.get("leverage", [])]
     if args.json:
         print(json.dumps(d, indent=2, default=float))
     else:
         _print_fit(d)
+    _say_extra(extra)
     return 0
 
 
 def _cmd_compare(args) -> int:
     from ttvkit.hypotheses import DEFAULT_COMPARISON
 
-    comparison = _run(args, list(DEFAULT_COMPARISON))
+    comparison, extra = _run(args, list(DEFAULT_COMPARISON))
+    _say_extra(extra)
     if args.json:
-        print(json.dumps(comparison.to_dict(), indent=2, default=float))
+        print(json.dumps({**comparison.to_dict(), **extra}, indent=2, default=float))
         return 0
     print(f"{'hypothesis':40s} {'k':>3s} {'chi2':>10s} {'dof':>4s} {'BIC':>11s} {'dBIC':>8s}")
     for row in comparison.rows():

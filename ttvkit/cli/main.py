@@ -8,6 +8,7 @@ line on stderr and exit status 2; ``--debug`` shows the traceback instead.
 from __future__ import annotations
 
 import argparse
+import signal
 import sys
 import textwrap
 import warnings
@@ -42,10 +43,11 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``ttvkit`` command; returns the exit status."""
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_join_negative_values(sys.argv[1:] if argv is None else list(argv)))
     if args.command is None:
         parser.print_help()
         return 0
+    previous = _interrupt_on_sigterm()
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", TtvkitWarning)
@@ -53,6 +55,8 @@ def main(argv: list[str] | None = None) -> int:
         for w in caught:
             if issubclass(w.category, TtvkitWarning):
                 print(f"warning: {w.message}", file=sys.stderr)
+            elif w.category.__module__.split(".")[0] in ("erfa", "astropy"):  # never swallowed
+                print(f"warning: (time conversion) {_one_line(str(w.message))}", file=sys.stderr)
         return status
     except TtvkitError as exc:
         if args.debug:
@@ -68,10 +72,48 @@ def main(argv: list[str] | None = None) -> int:
         print(f"ttvkit {args.command}: internal error ({type(exc).__name__}: "
               f"{_one_line(str(exc))}); rerun with --debug and report it", file=sys.stderr)
         return 1
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+
+
+def _interrupt_on_sigterm():
+    """Turn SIGTERM into KeyboardInterrupt so staging folders and partial files are cleaned up."""
+    def handler(signum, frame):
+        raise KeyboardInterrupt
+
+    try:
+        return signal.signal(signal.SIGTERM, handler)
+    except ValueError:  # not the main thread: leave signals alone
+        return None
+
+
+def _join_negative_values(argv: list) -> list:
+    """``--dec -12:01:02`` as ``--dec=-12:01:02``: argparse takes a value starting with '-' for an option."""
+    out = []
+    i = 0
+    while i < len(argv):
+        item = argv[i]
+        if item in ("--dec", "--ra", "--ephemeris") and i + 1 < len(argv) and argv[i + 1].startswith("-") \
+                and len(argv[i + 1]) > 1 and (argv[i + 1][1].isdigit() or argv[i + 1][1] == "."):
+            out.append(f"{item}={argv[i + 1]}")
+            i += 2
+            continue
+        out.append(item)
+        i += 1
+    return out
 
 
 def _one_line(text: str) -> str:
-    return " ".join(textwrap.dedent(text).split())
+    """One line per problem: a table's list of problems keeps its ``  - `` items."""
+    lines = textwrap.dedent(text).splitlines()
+    out = [" ".join(lines[0].split())] if lines else [""]
+    for line in lines[1:]:
+        if line.lstrip().startswith("- ") or line.lstrip().startswith("... and"):
+            out.append("  " + " ".join(line.split()))
+        elif line.strip():
+            out[-1] += " " + " ".join(line.split())
+    return "\n".join(out)
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -87,22 +87,24 @@ def add_commands(sub) -> None:
 
 
 def _cmd_perturbers(args) -> int:
-    from ttvkit.cli.common import read_table_from_args
+    from ttvkit.cli.common import read_edited_table
     from ttvkit.diagnosis.perturbers import map_perturbers
-    from ttvkit.io.outdir import staged_folder
+    from ttvkit.io.outdir import check_folder, staged_folder
     from ttvkit.physics import System
     from ttvkit.report.figures import perturber_map_figure, save_figure
 
+    check_folder(args.out, args.force, inputs=[args.table, args.system])
     system = System.from_toml(args.system)
-    table = read_table_from_args(args)
+    table, edits, notes = read_edited_table(args)
     options, executor = map_options(args)
     try:
-        with staged_folder(args.out, args.force) as stage:
+        with staged_folder(args.out, args.force, inputs=[args.table, args.system]) as stage:
             pmap = map_perturbers(table, system, options, executor=executor,
                                   progress=not args.no_progress and not args.json)
             pmap.write(stage)
             save_figure(perturber_map_figure(pmap), stage / "perturber_map")
-            text = json.dumps(pmap.to_dict(), indent=2) + "\n"
+            text = json.dumps({**pmap.to_dict(), "table_edits": edits.to_dict(), "table_notes": notes},
+                              indent=2) + "\n"
             (stage / "perturber_map.json").write_text(text)
     finally:
         if executor is not None:

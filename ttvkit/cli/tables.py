@@ -6,7 +6,7 @@ import argparse
 import json
 import sys
 
-from ttvkit.cli.common import add_table_options, read_table_from_args
+from ttvkit.cli.common import add_table_options, read_edited_table
 
 __all__ = ["add_commands"]
 
@@ -40,18 +40,25 @@ def add_commands(sub) -> None:
 
 
 def _cmd_convert(args) -> int:
+    from pathlib import Path
+
+    from ttvkit.errors import OutputExistsError
     from ttvkit.io.readers import check_output_path
 
     check_output_path(args.out, args.force)
-    table = read_table_from_args(args)
+    if Path(args.out).resolve() == Path(args.table).resolve():
+        raise OutputExistsError(f"{args.out}: is the input table; write the output to another file")
+    table, edits, notes = read_edited_table(args)
     suspicions = table.check_standards()
-    table.write(args.out, overwrite=args.force)
+    table.write(args.out, overwrite=args.force, meta={"table_edits": edits.to_dict(), "table_notes": notes})
     summary = {
         "output": str(args.out),
         "n_points": len(table),
         "sources": table.sources,
         "given_standards": sorted(set(table.given_standard.tolist())),
         "warnings": [s.to_dict() for s in suspicions],
+        "table_edits": edits.to_dict(),
+        "table_notes": notes,
     }
     if args.json:
         print(json.dumps(summary, indent=2))

@@ -14,6 +14,8 @@ file allows; it is not thereby the cause.
 
 from __future__ import annotations
 
+import os
+
 from dataclasses import dataclass, field, replace
 
 import astropy.units as u
@@ -237,6 +239,7 @@ class DiagnosisOptions:
     perturber_map: object = None
     fit_perturber: bool = False
     perturber_steps: int = 500
+    excess_noise: bool = True  # add a jitter when chi2 is too large (ttvkit.inference.excess_noise)
 
     def __post_init__(self):
         if self.n_steps < 1 or self.perturber_steps < 1:
@@ -275,6 +278,10 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
     -------
     Diagnosis
     """
+    if isinstance(system, (str, os.PathLike)):  # a system file: read it as the CLI does
+        from ttvkit.physics.system import System
+
+        system = System.from_toml(system)
     if not hasattr(system, "star"):
         raise InputError(f"diagnose needs a System (ttvkit.physics.System.from_toml(path)), "
                          f"not {type(system).__name__}")
@@ -283,6 +290,12 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
     if "constant-period" not in hypotheses:  # the reference of every O−C
         hypotheses.insert(0, "constant-period")
     notes = []
+    if options.excess_noise:
+        from ttvkit.inference.excess_noise import decide_excess_noise
+
+        noise = decide_excess_noise(table, options.likelihood, context=HostContext.from_system(system))
+        options = replace(options, likelihood=noise.likelihood)
+        notes += [{"kind": "excess noise", "message": noise.message}] if noise.message else []
     suspicions = table.check_standards()
     for s in suspicions:
         notes.append({"kind": "time standard", "message": s.message()})
@@ -303,6 +316,11 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
     if outliers.size:
         notes.append({"kind": "outliers", "message": f"{outliers.size} mid-time(s) sit more than 5σ from the "
                       "constant-period fit; consider a robust likelihood (--robust)"})
+    if comparison.best.name != "constant-period":  # does one row or source decide the detection?
+        from ttvkit.inference.leverage import find_leverage
+
+        notes += [{"kind": "leverage", "message": lev.message()} for lev in
+                  find_leverage(comparison.best, table, context=HostContext.from_system(system))]
     assessments = [_assess(f, comparison.delta_bic(f), system) for f in comparison.fits]
     standing = [a.fit for a in assessments if a.stands]
     duration = None

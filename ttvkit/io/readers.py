@@ -180,6 +180,8 @@ def check_output_path(path: "str | os.PathLike", overwrite: bool) -> Path:
         raise OutputExistsError(f"{path}: is a directory")
     if not path.parent.exists():
         raise InputError(f"{path}: the folder {path.parent} does not exist")
+    if not path.parent.is_dir():
+        raise InputError(f"{path}: {path.parent} is a file, not a folder")
     return path
 
 
@@ -193,6 +195,9 @@ def atomic_write_text(path: "str | os.PathLike", text: str, overwrite: bool = Fa
     try:
         with os.fdopen(fd, "w", encoding="utf-8", newline="") as handle:
             handle.write(text)
+        mask = os.umask(0o022)
+        os.umask(mask)
+        os.chmod(tmp, 0o666 & ~mask)  # mkstemp's 0600 would hide the file from collaborators
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):

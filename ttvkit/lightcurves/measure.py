@@ -18,7 +18,6 @@ from scipy.optimize import least_squares
 
 from ttvkit.errors import InputError
 from ttvkit.lightcurves.midtime import TransitShape, WindowModel, fit_mid_time
-from ttvkit.lightcurves.reading import read_light_curve
 from ttvkit.timing.table import TimingTable
 
 __all__ = ["measure", "MeasureOptions", "fit_shape", "guess_shape", "MeasureReport"]
@@ -145,8 +144,9 @@ def measure(paths, ephemeris, options: MeasureOptions | None = None, *, progress
 
     Parameters
     ----------
-    paths : path or sequence of paths
-        Light-curve files (CSV, ECSV, FITS).
+    paths : path, LightCurve, arrays, TimeSeries, lightkurve-style object, or a sequence of them
+        Light-curve files (CSV, ECSV, FITS) or light curves in memory (see
+        :func:`ttvkit.lightcurves.inputs.as_light_curves`).
     ephemeris : Ephemeris
         Reference ephemeris (BJD_TDB) to find the transits and number them.
     options : MeasureOptions, optional
@@ -162,11 +162,9 @@ def measure(paths, ephemeris, options: MeasureOptions | None = None, *, progress
         The table has extra columns ``beta``, ``coverage`` and
         ``white_uncertainty``; its source label is the light-curve file.
     """
-    import os
+    from ttvkit.lightcurves.inputs import as_light_curves
 
     options = replace(options, **changes) if options is not None else MeasureOptions(**changes)
-    if isinstance(paths, (str, os.PathLike)):
-        paths = [paths]
     shape, fit_the_shape, time_partial = options.shape, options.fit_shape, options.time_partial
     baseline_order, target = options.baseline_order, options.target
     from tqdm.auto import tqdm
@@ -174,8 +172,7 @@ def measure(paths, ephemeris, options: MeasureOptions | None = None, *, progress
     from ttvkit.lightcurves.reading import cut_windows
 
     report = MeasureReport()
-    curves = [read_light_curve(p, options.standard, options.columns, options.preset, target, options.observer)
-              for p in paths]
+    curves = as_light_curves(paths, options)
     for lc in curves:
         report.dropped[lc.source] = lc.dropped
     base = shape
@@ -216,7 +213,7 @@ def measure(paths, ephemeris, options: MeasureOptions | None = None, *, progress
                                                                   f"{s['reason']}" for s in report.skipped[:5]))
     report.measured = len(rows)
     table = TimingTable([r.time for r in rows], [r.uncertainty for r in rows], epoch=[r.epoch for r in rows],
-                        kind="transit", source=[r.source for r in rows], given_standard="BJD_TDB",
+                        kind="transit", source=[r.source for r in rows], given_standard=_given(options.standard),
                         target=target, ephemeris=ephemeris,
                         extra={"beta": np.array([r.beta for r in rows]),
                                "coverage": np.array([r.coverage for r in rows]),
@@ -228,3 +225,13 @@ def _supersampled(shape: TransitShape, exposure: float) -> TransitShape:
     if exposure > 2.5 * SUBEXPOSURE_DAYS:
         return replace(shape, exposure_time=exposure, supersample=int(np.ceil(exposure / SUBEXPOSURE_DAYS)))
     return replace(shape, exposure_time=0.0, supersample=1)
+
+
+def _given(standard) -> str:
+    """The standard the light curves' times were given in, as recorded in the table (BTJD stays BTJD)."""
+    if standard is None:
+        return "BJD_TDB"
+    from ttvkit.timing.standards import parse_standard
+
+    key = str(standard).strip().upper()
+    return key if key in ("BTJD", "BKJD") else parse_standard(standard).name

@@ -55,7 +55,8 @@ class _Section:
         """The value ``name``, or a MissingValueError naming it and ``formula``."""
         value = getattr(self, name)
         if value is None:
-            raise MissingValueError(f"{self.SECTION}.{name} is needed for {formula} but was not given; "
+            where = getattr(self, "_where", None)
+            raise MissingValueError(f"{where + ': ' if where else ''}{self.SECTION}.{name} is needed for {formula} but was not given; "
                                     f"add it to the system file's [{self.SECTION}] table")
         return value
 
@@ -206,6 +207,10 @@ class System:
             data = tomllib.loads(path.read_text(encoding="utf-8"))
         except FileNotFoundError:
             raise InputError(f"{path}: no such file") from None
+        except IsADirectoryError:
+            raise InputError(f"{path}: is a folder; give the system file (TOML) itself") from None
+        except OSError as exc:
+            raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
         except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
             raise InputError(f"{path}: not valid TOML ({exc})") from None
         return cls.from_dict(data, str(path))
@@ -234,8 +239,14 @@ class System:
         for key in ("mass", "radius"):
             star.need(key, f"every physical check (system file {where})")
         _check_ranges(where, tables)
-        return cls(star, Companion(**tables["companion"]), Orbit(**tables["orbit"]),
-                   RadialVelocityLimits(**tables["radial_velocity"]), str(name))
+        system = cls(star, Companion(**tables["companion"]), Orbit(**tables["orbit"]),
+                     RadialVelocityLimits(**tables["radial_velocity"]), str(name))
+        for section in (system.star, system.companion, system.orbit, system.radial_velocity):
+            section._where = where
+        from ttvkit.physics.system_checks import check_consistency
+
+        check_consistency(system, where, data.get("star", {}).get("radius"))
+        return system
 
     def to_dict(self) -> dict:
         """Plain-JSON form, each quantity as ``{"value", "unit"}``."""
@@ -257,6 +268,8 @@ def _parse(value, unit, where, section, key):
     if unit is None:
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise InputError(f"{where}: [{section}] {key} = {value!r} must be a plain number")
+        if not np.isfinite(value):
+            raise InputError(f"{where}: [{section}] {key} = {value!r} is not a finite number")
         return float(value)
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         raise InputError(f"{where}: [{section}] {key} = {value!r} needs a unit, e.g. "
@@ -266,6 +279,8 @@ def _parse(value, unit, where, section, key):
     except (TypeError, ValueError):
         raise InputError(f"{where}: [{section}] {key} = {value!r}: unparseable quantity; write "
                          f"a number and an astropy unit, e.g. \"1.0 {unit.to_string()}\"") from None
+    if not np.all(np.isfinite(q.value)):
+        raise InputError(f"{where}: [{section}] {key} = {value!r} is not a finite number")
     try:
         return q.to(unit)
     except u.UnitConversionError:
@@ -283,6 +298,16 @@ def _check_ranges(where, tables):
             v = tables[section].get(key)
             if v is not None and not (float(getattr(v, "value", v)) > 0):
                 raise InputError(f"{where}: [{section}] {key} must be positive")
+    index = tables["star"].get("polytropic_index")
+    if index is not None and not (0 <= index < 5):
+        raise InputError(f"{where}: [star] polytropic_index = {index:g} must be in [0, 5) "
+                         "(a polytrope of index 5 or more has no finite radius)")
+    dec = tables["star"].get("dec")
+    if dec is not None and not (-90 <= dec.to_value(u.deg) <= 90):
+        raise InputError(f"{where}: [star] dec = {dec} must lie between -90 and +90 degrees")
+    ra = tables["star"].get("ra")
+    if ra is not None and not (0 <= ra.to_value(u.deg) < 360):
+        raise InputError(f"{where}: [star] ra = {ra} must lie in [0, 360) degrees")
     e = tables["orbit"].get("eccentricity")
     if e is not None and not (0 <= e < 1):
         raise InputError(f"{where}: [orbit] eccentricity = {e} must be in [0, 1)")

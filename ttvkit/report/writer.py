@@ -19,6 +19,7 @@ from pathlib import Path
 
 from ttvkit.diagnosis.diagnose import CAUTION
 from ttvkit.io.outdir import staged_folder
+from ttvkit.report.numbers import format_value
 
 __all__ = ["write_report", "render_html"]
 
@@ -153,7 +154,7 @@ def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
         parts.append("<table><tr><th>quantity</th><th>value</th><th>−1σ</th><th>+1σ</th><th>unit</th></tr>")
         for section in ("parameters", "derived"):
             for k, v in table[section].items():
-                parts.append(f"<tr><td>{_e(k)}</td><td>{v['value']:.8g}</td><td>{v['lower']:.3g}</td>"
+                parts.append(f"<tr><td>{_e(k)}</td><td>{format_value(v['value'], v['lower'], v['upper']).split()[0]}</td><td>{v['lower']:.3g}</td>"
                              f"<td>{v['upper']:.3g}</td><td>{_e(v['unit'])}</td></tr>")
         parts.append("</table>")
         if a.checks:

@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 
 from ttvkit.errors import InputError
 
-__all__ = ["TableEdits", "parse_relabel"]
+__all__ = ["TableEdits", "parse_relabel", "parse_rows"]
 
 
 def parse_relabel(item: str) -> tuple[str, str]:
@@ -19,6 +19,26 @@ def parse_relabel(item: str) -> tuple[str, str]:
         raise InputError(f"--relabel {item!r} must be SOURCE=STANDARD")
     source, standard = (x.strip() for x in item.rsplit("=", 1))
     return source, standard
+
+
+def parse_rows(text: str) -> tuple:
+    """``"12,40"`` (or ``"12-14,40"``) as a tuple of row numbers."""
+    rows = []
+    for part in str(text).split(","):
+        part = part.strip()
+        if not part:
+            continue
+        try:
+            if "-" in part:
+                a, b = (int(x) for x in part.split("-", 1))
+                rows.extend(range(a, b + 1))
+            else:
+                rows.append(int(part))
+        except ValueError:
+            raise InputError(f"--drop-rows {text!r} must be row numbers such as 12,40 or 12-14") from None
+    if any(r < 1 for r in rows):
+        raise InputError(f"--drop-rows {text!r}: rows are numbered from 1")
+    return tuple(rows)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -31,14 +51,22 @@ class TableEdits:
         source → standard its times are really in (e.g. ``{"Old survey": "BJD_UTC"}``).
     exclude_sources : tuple of str
         Sources left out.
+    drop_rows : tuple of int
+        Data rows of the file (1-based, as errors name them) left out; they
+        are taken out when the file is read (``TimingTable.read(drop_rows=...)``)
+        since a row that cannot be placed stops the reading, and noted here.
     """
 
     relabel: dict = field(default_factory=dict)
     exclude_sources: tuple = ()
+    drop_rows: tuple = ()
 
     def apply(self, table) -> tuple:
         """The edited table and one note per edit: ``(table, notes)``; the input is unchanged."""
         notes = []
+        if self.drop_rows:
+            notes.append(f"row(s) {', '.join(map(str, sorted(self.drop_rows)))} of the file were left "
+                         "out at the user's request")
         for source, standard in self.relabel.items():
             table = table.relabel_source(source, standard)
             notes.append(f"source {source!r} was re-read as {standard} at the user's request")
@@ -49,3 +77,8 @@ class TableEdits:
             table = table.subset(table.source != source)
             notes.append(f"source {source!r} was left out at the user's request")
         return table, notes
+
+    def to_dict(self) -> dict:
+        """The edits, for an output's metadata."""
+        return {"relabel": dict(self.relabel), "exclude_sources": list(self.exclude_sources),
+                "drop_rows": sorted(self.drop_rows)}

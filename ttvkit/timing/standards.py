@@ -240,10 +240,22 @@ def _direction(target: SkyCoord, t: Time) -> SkyCoord:
     return SkyCoord(ra=ra, dec=dec, frame="icrs")
 
 
-def _as_days(values) -> np.ndarray:
+def _as_days(values, std: "TimeStandard | None" = None) -> np.ndarray:
+    """Plain day numbers; an astropy Time is read as a Julian date in the standard's scale."""
+    if isinstance(values, Time):
+        if std is None:
+            raise TimeStandardError("an astropy Time needs a standard to say its frame")
+        t = getattr(values, std.scale)
+        return np.atleast_1d((t.jd1 - std.offset) + t.jd2)
     if isinstance(values, u.Quantity):
-        values = values.to_value(u.day)
-    return np.atleast_1d(np.asarray(values, dtype=float))
+        try:
+            values = values.to_value(u.day)
+        except u.UnitConversionError:
+            raise TimeStandardError(f"times in {values.unit} are not days") from None
+    try:
+        return np.atleast_1d(np.asarray(values, dtype=float))
+    except (TypeError, ValueError):
+        raise TimeStandardError("times must be numbers (days), a Quantity or an astropy Time") from None
 
 
 def _time(standard: TimeStandard, values: np.ndarray, location: EarthLocation) -> Time:
@@ -281,7 +293,7 @@ def to_bjd_tdb(values, standard: "str | TimeStandard", target: SkyCoord | None =
     then the barycentric correction of that ``t`` is applied.
     """
     std = parse_standard(standard)
-    x = _as_days(values)
+    x = _as_days(values, std)
     location = observer if observer is not None else GEOCENTRE
     if std.frame == "BJD":
         t = _time(std, x, GEOCENTRE)

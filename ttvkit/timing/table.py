@@ -42,9 +42,6 @@ from ttvkit.timing.ephemeris import KINDS, Ephemeris
 
 __all__ = ["TimingTable"]
 
-#: Two rows of one source and kind closer than this (0.086 s) are the same row twice.
-_DUPLICATE_DAYS = 1e-6
-
 
 class TimingTable:
     """A validated table of mid-times in BJD_TDB.
@@ -82,7 +79,7 @@ class TimingTable:
                  ephemeris: Ephemeris | None = None, extra: dict | None = None):
         self.time = _days(time, "time")
         n = self.time.size
-        self.uncertainty = np.broadcast_to(_days(uncertainty, "uncertainty"), (n,)).copy()
+        self.uncertainty = _sized(_days(uncertainty, "uncertainty"), n, "uncertainty")
         self.kind = _column(kind, n, "kind")
         self.source = _column(source, n, "source")
         self.given_standard = _column(given_standard, n, "given_standard")
@@ -103,13 +100,15 @@ class TimingTable:
                                      "reference ephemeris (T0, P) to assign them")
             self.epoch = ephemeris.assign_epochs(self.time, self.kind)
         else:
-            raw_epoch = np.broadcast_to(np.asarray(epoch), (n,))
-            as_float = raw_epoch.astype(float)
+            raw_epoch = _sized(np.atleast_1d(np.asarray(epoch)), n, "epoch")
+            try:
+                as_float = raw_epoch.astype(float)
+            except (TypeError, ValueError):
+                raise InputError("epoch: values must be integers") from None
             if np.any(as_float != np.round(as_float)):
                 raise InputError("epoch values must be integers")
             self.epoch = as_float.astype(np.int64)
-        self.extra = {k: np.broadcast_to(np.asarray(v), (n,)).copy()
-                      for k, v in (extra or {}).items()}
+        self.extra = {k: _sized(np.atleast_1d(np.asarray(v)), n, str(k)) for k, v in (extra or {}).items()}
 
     # ------------------------------------------------------------------ basics
     def __len__(self) -> int:
@@ -146,7 +145,8 @@ class TimingTable:
         keys = set().union(*(t.extra for t in tables))
         extra = {}
         for k in keys:
-            parts = [t.extra[k] if k in t.extra else np.full(len(t), np.nan if k == "beta" else "")
+            numeric = all(np.asarray(t.extra[k]).dtype.kind in "fiub" for t in tables if k in t.extra)
+            parts = [t.extra[k] if k in t.extra else np.full(len(t), np.nan if numeric else "")
                      for t in tables]
             extra[k] = np.concatenate([np.asarray(p, dtype=object) for p in parts])
             try:
@@ -170,6 +170,37 @@ class TimingTable:
         return ((self.time - eph.predict(self.epoch, self.kind)) * u.day).to(u.s)
 
     # --------------------------------------------------------------- in & out
+    @classmethod
+    def from_table(cls, table, standard: str | None = None, **kwargs) -> "TimingTable":
+        """A TimingTable from an astropy Table/QTable or a pandas DataFrame.
+
+        The columns are read as in :meth:`read` (``time``, ``uncertainty``,
+        optionally ``epoch``, ``kind``, ``source``, ``standard``; a column
+        with a unit carries it; other names through ``columns=``), and every
+        check of a file applies, rows numbered from 1.
+
+        Parameters
+        ----------
+        table : astropy.table.Table, QTable or pandas.DataFrame
+        standard : str, optional
+            Standard of rows without one.
+        **kwargs
+            As for :meth:`read` (target, observer, ephemeris, columns, units,
+            source, drop_rows, bare_bjd).
+        """
+        from ttvkit.timing.reading import build_table, raw_from_table
+
+        raw = raw_from_table(table)
+        kwargs.setdefault("source", "table")
+        return build_table(cls, raw, standard=standard, target=kwargs.pop("target", None),
+                           observer=kwargs.pop("observer", None), ephemeris=kwargs.pop("ephemeris", None),
+                           columns=kwargs.pop("columns", None) or {}, units=kwargs.pop("units", None) or {},
+                           **kwargs)
+
+    def to_pandas(self):
+        """The table as a pandas DataFrame (times and uncertainties in days, BJD_TDB)."""
+        return self.to_astropy().to_pandas()
+
     def to_astropy(self):
         """The table as an :class:`astropy.table.Table` with units and metadata."""
         from astropy.table import Table
@@ -202,17 +233,23 @@ class TimingTable:
                                        "period_days": self.ephemeris.period}
         return table
 
-    def write(self, path: "str | os.PathLike", overwrite: bool = False) -> Path:
-        """Write the table as ECSV (atomically; refuses to overwrite unless asked)."""
+    def write(self, path: "str | os.PathLike", overwrite: bool = False, meta: dict | None = None) -> Path:
+        """Write the table as ECSV (atomically; refuses to overwrite unless asked).
+
+        ``meta`` adds entries to the ECSV header (e.g. the edits made to the table).
+        """
         buffer = io.StringIO()
-        self.to_astropy().write(buffer, format="ascii.ecsv")
+        table = self.to_astropy()
+        table.meta.update(meta or {})
+        table.write(buffer, format="ascii.ecsv")
         return atomic_write_text(path, buffer.getvalue(), overwrite=overwrite)
 
     @classmethod
     def read(cls, path: "str | os.PathLike", standard: str | None = None,
              target: SkyCoord | None = None, observer: EarthLocation | None = None,
              ephemeris: Ephemeris | None = None, columns: dict | None = None,
-             units: dict | None = None, source: str | None = None) -> "TimingTable":
+             units: dict | None = None, source: str | None = None, drop_rows=(),
+             bare_bjd: str | None = None) -> "TimingTable":
         """Read a CSV or ECSV timing table and convert it to BJD_TDB.
 
         Parameters
@@ -236,6 +273,12 @@ class TimingTable:
             Units of columns whose header carries none, e.g. ``{"uncertainty": "s"}``.
         source : str, optional
             Source label for rows without one (default: the file name).
+        drop_rows : sequence of int, optional
+            Data rows of the file (1-based, as errors name them) to leave out
+            before anything is checked.
+        bare_bjd : str, optional
+            What a row labelled only ``BJD`` means (e.g. ``"BJD_TDB"``); without
+            it such rows are refused.  Used rows are named in a warning.
 
         Returns
         -------
@@ -251,7 +294,7 @@ class TimingTable:
 
         return build_table(cls, raw, standard=standard, target=target, observer=observer,
                            ephemeris=ephemeris, columns=columns or {}, units=units or {},
-                           source=source or Path(path).name)
+                           source=source or Path(path).name, drop_rows=drop_rows, bare_bjd=bare_bjd)
 
     def relabel_source(self, source: str, standard: str) -> "TimingTable":
         """A copy in which ``source``'s times are re-read as given in ``standard``.
@@ -296,6 +339,15 @@ def _days(values, name: str) -> np.ndarray:
         return np.atleast_1d(np.asarray(values, dtype=float)).copy()
     except (TypeError, ValueError):
         raise InputError(f"{name}: values must be numbers") from None
+
+
+def _sized(values: np.ndarray, n: int, name: str) -> np.ndarray:
+    """One value per row (a single value is repeated); a clear error for a wrong length."""
+    if values.ndim == 1 and values.size == n:
+        return values.copy()
+    if values.size == 1:
+        return np.full(n, values.ravel()[0], dtype=values.dtype)
+    raise InputError(f"{name}: has {values.size} values for {n} mid-times; give one per mid-time")
 
 
 def _column(values, n: int, name: str) -> np.ndarray:

@@ -21,7 +21,7 @@ baseline, kept for the tests.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.optimize import minimize_scalar
@@ -65,6 +65,21 @@ class TransitShape:
     omega: float = 90.0
     exposure_time: float = 0.0
     supersample: int = 1
+
+    def __post_init__(self):
+        k, b = self.radius_ratio, self.impact_parameter
+        rules = [("period", self.period > 0, "must be positive"),
+                 ("radius_ratio", 0 < k < 1, "must be between 0 and 1"),
+                 ("a_over_rstar", self.a_over_rstar > 1, "must exceed 1"),
+                 ("impact_parameter", 0 <= b < 1 + k, "must be in [0, 1 + radius_ratio): otherwise no transit"),
+                 ("q1", 0 <= self.q1 <= 1, "must be in [0, 1] (Kipping 2013)"),
+                 ("q2", 0 <= self.q2 <= 1, "must be in [0, 1] (Kipping 2013)"),
+                 ("eccentricity", 0 <= self.eccentricity < 1, "must be in [0, 1)"),
+                 ("exposure_time", self.exposure_time >= 0, "must not be negative"),
+                 ("supersample", self.supersample >= 1, "must be at least 1")]
+        for name, ok, why in rules:   # NaN fails every comparison, so it is refused too
+            if not ok:
+                raise InputError(f"transit shape: {name} = {getattr(self, name)!r} {why}")
 
     @property
     def limb_darkening(self) -> tuple[float, float]:
@@ -123,7 +138,10 @@ def shape_from_toml(path) -> TransitShape:
     for key in ("period", "radius_ratio", "a_over_rstar", "impact_parameter"):
         if key not in kwargs:
             raise InputError(f"{path}: [shape] needs {key}")
-    return TransitShape(**kwargs)
+    try:
+        return TransitShape(**kwargs)
+    except InputError as exc:
+        raise InputError(f"{path}: [shape]: {exc}") from None
 
 
 class WindowModel:
@@ -148,7 +166,12 @@ class WindowModel:
         self.params = shape.batman_params(self.centre)
         kw = {}
         if shape.exposure_time > 0 and shape.supersample > 1:
-            kw = {"supersample_factor": int(shape.supersample), "exp_time": float(shape.exposure_time)}
+            n = int(shape.supersample)
+            # batman places its n sub-points at linspace(-exp_time/2, exp_time/2, n), ends included, with
+            # equal weights: an effective exposure of exp_time * n / (n - 1) (checked numerically in
+            # tests/lightcurves/test_noise.py).  Asking for exposure * (n - 1) / n puts the sub-points at
+            # the midpoints of n equal slices of the instrument's exposure.
+            kw = {"supersample_factor": n, "exp_time": float(shape.exposure_time) * (n - 1) / n}
         # batman models the time relative to t0 internally; pass times relative to the window centre
         self.model = batman.TransitModel(self.params, self.time - self.centre, **kw)
         x = (self.time - self.centre) / max(np.ptp(self.time), 1e-9)
@@ -164,8 +187,13 @@ class WindowModel:
         self.evaluations += 1
         return self.model.light_curve(self.params)
 
+    def metric(self, x: np.ndarray) -> np.ndarray:
+        """K⁻¹ x for the noise covariance K (here diagonal: the flux errors squared)."""
+        w2 = self.weight ** 2
+        return x * (w2[:, None] if np.ndim(x) == 2 else w2)
+
     def _normal(self, m: np.ndarray):
-        """Normal equations AᵀA, Aᵀy of the baseline for the transit model ``m``."""
+        """Normal equations AᵀK⁻¹A, AᵀK⁻¹y of the baseline for the transit model ``m``."""
         a = m * self.design_t
         return a @ a.T, a @ self.flux_w
 
@@ -179,7 +207,7 @@ class WindowModel:
         return np.linalg.solve(normal, rhs)
 
     def chi2(self, t0: float) -> float:
-        """Profile χ² = yᵀy − (Aᵀy)ᵀ(AᵀA)⁻¹(Aᵀy): the baseline solved by weighted least squares."""
+        """Profile χ² = yᵀK⁻¹y − (AᵀK⁻¹y)ᵀ(AᵀK⁻¹A)⁻¹(AᵀK⁻¹y): the baseline solved by least squares."""
         normal, rhs = self._normal(self.light_curve(t0))
         if normal.shape == (2, 2):  # the quadratic form in closed form: this is the hot path
             det = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
@@ -190,7 +218,7 @@ class WindowModel:
         return self.yy - float(explained)
 
     def profile_chi2(self, t0: float) -> tuple[float, np.ndarray]:
-        """χ² with the baseline solved by weighted linear least squares; and the model."""
+        """White-noise χ² with the baseline solved by weighted linear least squares; and the model."""
         m = self.light_curve(t0)
         model = (m[:, None] * self.basis) @ self._solve(m)
         r = (self.flux - model) * self.weight
@@ -199,7 +227,14 @@ class WindowModel:
 
 @dataclass(frozen=True)
 class MidTime:
-    """One fitted mid-time."""
+    """One fitted mid-time (days), its uncertainty and the checks that decide whether it stands.
+
+    ``depth`` is the fitted depth in units of the shape's depth (1 = as
+    expected) and ``depth_error`` its uncertainty; ``at_bound`` says the
+    search ended at its bound; ``error_source`` says which noise model gave
+    the uncertainty (``flux_err``, ``flux_err x ratio`` or ``gp``) and
+    ``noise_ratio`` the out-of-transit scatter over the given errors.
+    """
 
     epoch: int
     time: float
@@ -211,6 +246,17 @@ class MidTime:
     evaluations: int
     coverage: str
     source: str
+    depth: float = 1.0
+    depth_error: float = 0.0
+    at_bound: bool = False
+    error_source: str = "flux_err"
+    noise_ratio: float = 1.0
+    residuals: np.ndarray | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def depth_snr(self) -> float:
+        """Fitted depth over its uncertainty."""
+        return self.depth / self.depth_error if self.depth_error > 0 else 0.0
 
 
 def beta_factor(residuals: np.ndarray, sigma: np.ndarray, bin_sizes) -> float:
@@ -241,8 +287,57 @@ def beta_factor(residuals: np.ndarray, sigma: np.ndarray, bin_sizes) -> float:
     return float(max(1.0, median))
 
 
+#: Points of the coarse mid-time grid before the bracketed Brent refinement.
+GRID_POINTS = 11
+
+
+def _search(model: WindowModel, predicted: float, half: float, tol: float) -> tuple[float, bool]:
+    """The χ²-minimising offset from ``predicted`` within ±half, and whether it sits at the bound.
+
+    A coarse grid (spacing half/5, below the ingress of any transit whose
+    ingress is resolved) finds the basin; Brent's bounded method refines it
+    inside the two neighbouring grid cells.  Offsets, not BJDs: Brent's
+    tolerance has a term relative to |x|, which at BJD ~ 2.46e6 would be ~0.04 d.
+    """
+    grid = np.linspace(-half, half, GRID_POINTS)
+    values = [model.chi2(predicted + d) for d in grid]
+    i = int(np.argmin(values))
+    step = grid[1] - grid[0]
+    lo, hi = max(grid[i] - step, -half), min(grid[i] + step, half)
+    res = minimize_scalar(lambda d: model.chi2(predicted + d), bounds=(lo, hi), method="bounded",
+                          options={"xatol": tol})
+    offset = float(res.x) if res.fun <= values[i] else float(grid[i])
+    return offset, abs(offset) > half - 3 * tol
+
+
+def _curvature_and_depth(model: WindowModel, t0: float, h: float):
+    """Mid-time σ from the Fisher information (baseline profiled), the depth scale ± σ, the residuals.
+
+    Fisher matrix F = JᵀK⁻¹J with J = [∂model/∂t0, baseline columns]: the
+    mid-time variance is (F⁻¹)₀₀, i.e. the baseline's correlation with t0
+    profiled out.  The depth check fits flux = baseline + a (m − 1) baseline
+    by generalised least squares (a = 1: the shape's depth).
+    """
+    m0 = model.light_curve(t0)
+    a = m0[:, None] * model.basis
+    base = model.basis @ model._solve(m0)
+    slope = (model.light_curve(t0 + h) - model.light_curve(t0 - h)) / (2 * h) * base
+    j = np.column_stack([slope, a])
+    fisher = j.T @ model.metric(j)
+    try:
+        variance = float(np.linalg.inv(fisher)[0, 0])
+        d = np.column_stack([model.basis, (m0 - 1) * base])
+        normal = d.T @ model.metric(d)
+        coef = np.linalg.solve(normal, model.metric(d).T @ model.flux)
+        depth, depth_var = float(coef[-1]), float(np.linalg.inv(normal)[-1, -1])
+    except np.linalg.LinAlgError:
+        variance, depth, depth_var = np.nan, 0.0, np.inf
+    white = float(np.sqrt(variance)) if variance > 0 else np.nan
+    return white, depth, float(np.sqrt(depth_var)), model.flux - m0 * base
+
+
 def fit_mid_time(window, shape: TransitShape, search: float | None = None, baseline_order: int = 1,
-                 correlated_noise: bool = True) -> MidTime:
+                 correlated_noise: bool = False, red=None, error_scale: float = 1.0) -> MidTime:
     """Fit one window's mid-time with the shape fixed.
 
     Parameters
@@ -254,47 +349,45 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
         (default a quarter of the transit duration).
     baseline_order : int
     correlated_noise : bool
-        Inflate the uncertainty by the β factor.
+        Inflate the uncertainty by the β factor (kept for comparison: β is
+        always reported, and understates correlated noise; use ``red``).
+    red : ttvkit.lightcurves.noise.RedNoise, optional
+        A fitted correlated-noise model: the likelihood is a Gaussian process.
+    error_scale : float
+        Factor applied to the window's flux errors (the measured white level).
 
     Returns
     -------
     MidTime
+        Check ``at_bound`` and ``depth_snr`` before trusting it.
     """
-    model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
+    err = np.asarray(window.flux_err, float) * error_scale
+    if red is None:
+        model = WindowModel(window.time, window.flux, err, shape, baseline_order)
+        source = "flux_err" if error_scale == 1.0 else "flux_err x ratio"
+    else:
+        from ttvkit.lightcurves.noise import GPWindowModel
+
+        model = GPWindowModel(window.time, window.flux, err, shape, baseline_order, red)
+        source = "gp"
     t14, tau = shape.durations()
     half = search if search is not None else 0.25 * t14
     # Stop when the mid-time is known to 1/50 of its expected precision
     # (the Carter et al. 2008 bound for this window), far below its error.
     cadence = float(window.time[-1] - window.time[0]) / max(window.time.size - 1, 1)
-    expected = float(np.median(window.flux_err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
+    expected = float(np.median(err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
     tol = max(min(expected / 50, tau * 1e-3), 1e-8)
-    # Search in the offset from the prediction: Brent's tolerance has a term
-    # relative to |x|, which at BJD ~ 2.46e6 would be ~0.04 d.
-    res = minimize_scalar(lambda d: model.chi2(window.predicted + d), bounds=(-half, half),
-                          method="bounded", options={"xatol": tol})
-    t_best = float(window.predicted + res.x)
-    # Curvature of the profile χ² from the model's derivative (Gauss–Newton,
-    # the expected Fisher information): d²χ²/dt0² = 2 Σ (∂m/∂t0)² / σ², with
-    # the baseline re-solved at t0 ± h so its correlation with t0 is
-    # profiled out.  Unlike a second difference of the observed χ², this is
-    # not thrown about by the kinks of the model at the contact points.
-    h = max(tau / 10, 1e-6)
-    chi2, best_model = model.profile_chi2(t_best)
-    _, m_plus = model.profile_chi2(t_best + h)
-    _, m_minus = model.profile_chi2(t_best - h)
-    derivative = (m_plus - m_minus) / (2 * h) * model.weight
-    curvature = 2 * float(derivative @ derivative)
-    if not curvature > 0:
-        raise InputError(f"{window.source}: epoch {window.epoch}: the χ² has no minimum at the mid-time "
-                         "(no transit signal in the window?)")
-    white = float(np.sqrt(2.0 / curvature))
-    beta = 1.0
-    if correlated_noise:
-        n_tau = max(2, int(round(tau / cadence)))
-        sizes = sorted({int(round(max(2, n_tau / 2) * 4 ** (i / 4))) for i in range(5)})
-        beta = beta_factor((window.flux - best_model) / window.flux_err, np.ones(window.time.size), sizes)
-    return MidTime(window.epoch, t_best, white * beta, white, beta, chi2, int(window.time.size),
-                   model.evaluations, window.coverage, window.source)
+    offset, at_bound = _search(model, window.predicted, half, tol)
+    t_best = float(window.predicted + offset)
+    white, depth, depth_error, resid = _curvature_and_depth(model, t_best, max(tau / 10, 1e-6))
+    n_tau = max(2, int(round(tau / cadence)))
+    sizes = sorted({int(round(max(2, n_tau / 2) * 4 ** (i / 4))) for i in range(5)})
+    beta = beta_factor(resid / err, np.ones(window.time.size), sizes)
+    sigma = white * (beta if correlated_noise else 1.0)
+    chi2 = model.chi2(t_best)
+    return MidTime(window.epoch, t_best, sigma, white, beta, chi2, int(window.time.size), model.evaluations,
+                   window.coverage, window.source, depth, depth_error, bool(at_bound), source, error_scale,
+                   resid)
 
 
 def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: int = 16, seed: int = 0,
@@ -307,7 +400,7 @@ def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: i
     import emcee
 
     model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
-    fast = fit_mid_time(window, shape, baseline_order=baseline_order, correlated_noise=False)
+    fast = fit_mid_time(window, shape, baseline_order=baseline_order)
     k = baseline_order + 1
     m0 = model.light_curve(fast.time)
     coef0, *_ = np.linalg.lstsq((m0[:, None] * model.basis) * model.weight[:, None], model.flux * model.weight,

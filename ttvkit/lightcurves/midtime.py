@@ -391,25 +391,29 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
 
 
 def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: int = 16, seed: int = 0,
-                  baseline_order: int = 1) -> tuple[float, float]:
+                  baseline_order: int = 1, red=None) -> tuple[float, float]:
     """Slow reference: emcee over the mid-time and the baseline coefficients.
 
     Returns the posterior median and standard deviation of the mid-time
-    (days), without β inflation.  Uniform priors.
+    (days), without β inflation.  Uniform priors.  With ``red`` (a
+    :class:`~ttvkit.lightcurves.noise.RedNoise`) the likelihood is that GP's.
     """
     import emcee
 
-    model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
-    fast = fit_mid_time(window, shape, baseline_order=baseline_order)
+    if red is None:
+        model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
+    else:
+        from ttvkit.lightcurves.noise import GPWindowModel
+
+        model = GPWindowModel(window.time, window.flux, window.flux_err, shape, baseline_order, red)
+    fast = fit_mid_time(window, shape, baseline_order=baseline_order, red=red)
     k = baseline_order + 1
-    m0 = model.light_curve(fast.time)
-    coef0, *_ = np.linalg.lstsq((m0[:, None] * model.basis) * model.weight[:, None], model.flux * model.weight,
-                                rcond=None)
+    coef0 = model._solve(model.light_curve(fast.time))
 
     def log_prob(theta):
         m = model.light_curve(theta[0])
-        r = (model.flux - (m[:, None] * model.basis) @ theta[1:]) * model.weight
-        return -0.5 * float(r @ r)
+        r = model.flux - (m[:, None] * model.basis) @ theta[1:]
+        return -0.5 * float(r @ model.metric(r))
 
     rng = np.random.default_rng(seed)
     start = np.concatenate([[fast.time], coef0])

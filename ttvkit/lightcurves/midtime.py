@@ -234,6 +234,8 @@ class MidTime:
     search ended at its bound; ``error_source`` says which noise model gave
     the uncertainty (``flux_err``, ``flux_err x ratio`` or ``gp``) and
     ``noise_ratio`` the out-of-transit scatter over the given errors.
+    ``predicted_depth_snr`` is the depth S/N at the predicted time, kept
+    when the fit found no transit (a brightening there means magnitudes).
     """
 
     epoch: int
@@ -252,6 +254,7 @@ class MidTime:
     error_source: str = "flux_err"
     noise_ratio: float = 1.0
     residuals: np.ndarray | None = field(default=None, repr=False, compare=False)
+    predicted_depth_snr: float | None = None
 
     @property
     def depth_snr(self) -> float:
@@ -385,9 +388,13 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
     beta = beta_factor(resid / err, np.ones(window.time.size), sizes)
     sigma = white * (beta if correlated_noise else 1.0)
     chi2 = model.chi2(t_best)
+    at_prediction = None
+    if at_bound or not depth >= 5 * depth_error:   # no transit found: what is at the predicted time?
+        _, d, e, _ = _curvature_and_depth(model, window.predicted, max(tau / 10, 1e-6))
+        at_prediction = d / e if e > 0 else 0.0
     return MidTime(window.epoch, t_best, sigma, white, beta, chi2, int(window.time.size), model.evaluations,
                    window.coverage, window.source, depth, depth_error, bool(at_bound), source, error_scale,
-                   resid)
+                   resid, at_prediction)
 
 
 def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: int = 16, seed: int = 0,

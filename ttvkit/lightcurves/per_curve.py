@@ -70,8 +70,9 @@ def _coverage_reason(window, time_partial: bool, baseline_order: int) -> str | N
 def judge(m: MidTime, search_half: float) -> str | None:
     """Why a fitted window is not a result (None if it is)."""
     snr = m.depth_snr
-    if snr <= -DETECTION_SNR:
-        return (f"the flux rises where the transit is predicted (depth {snr:.1f} σ): "
+    lowest = min(snr, m.predicted_depth_snr if m.predicted_depth_snr is not None else snr)
+    if lowest <= -DETECTION_SNR:
+        return (f"the flux rises where the transit is predicted (depth {lowest:.1f} σ): "
                 "magnitudes given as flux?")
     if not snr >= DETECTION_SNR:
         return f"transit not detected: depth {snr:.1f} σ, below {DETECTION_SNR:g} σ"
@@ -118,12 +119,16 @@ def time_light_curve(lc, windows, shape: TransitShape, noise: str = "auto", base
     info = {"source": lc.source, "white_ratio": None, "red_noise": None, "model": noise}
     if not first:
         return [], untimed, info
-    found = [(w, m) for w, m in first if judge(m, half) is None] or first
-    masks = [np.abs(w.time - m.time) > 0.5 * (t14 + lc.exposure_time) for w, m in found]
-    ratio = white_ratio([m.residuals for _, m in found], [w.flux_err for w, _ in found], masks,
-                        baseline_order + 2)
+    found = [(w, m) for w, m in first if judge(m, half) is None]
+    if found:
+        masks = [np.abs(w.time - m.time) > 0.5 * (t14 + lc.exposure_time) for w, m in found]
+        ratio = white_ratio([m.residuals for _, m in found], [w.flux_err for w, _ in found], masks,
+                            baseline_order + 2)
+    else:   # no transit model to trust: the point-to-point scatter (differences cancel any slow trend)
+        steps = np.concatenate([np.diff(w.flux) / np.hypot(w.flux_err[1:], w.flux_err[:-1]) for w, _ in first])
+        ratio = float(1.4826 * np.median(np.abs(steps - np.median(steps)))) if steps.size else 1.0
     red = None
-    if noise in ("auto", "gp"):
+    if noise in ("auto", "gp") and found:   # hyperparameters from real fits only: a GP must not eat a dip
         red = fit_red_noise([w.time for w, _ in found], [m.residuals for _, m in found],
                             [w.flux_err for w, _ in found], max(lc.cadence, 1e-6))
         info["red_noise"] = {"amplitude": red.amplitude, "timescale_d": red.timescale,
@@ -140,7 +145,8 @@ def time_light_curve(lc, windows, shape: TransitShape, noise: str = "auto", base
         elif noise != "given":
             m = replace(m, uncertainty=m.uncertainty * ratio, white_uncertainty=m.white_uncertainty * ratio,
                         depth_error=m.depth_error * ratio, error_source="flux_err x ratio", noise_ratio=ratio,
-                        residuals=None)
+                        residuals=None, predicted_depth_snr=None if m.predicted_depth_snr is None
+                        else m.predicted_depth_snr / ratio)
         else:
             m = replace(m, noise_ratio=ratio, residuals=None)
         reason = judge(m, half)

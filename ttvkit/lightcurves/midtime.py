@@ -9,14 +9,21 @@ points are supersampled over the exposure time (Kipping 2010, MNRAS 408,
 
 With the shape fixed, each window's mid-time is a one-dimensional search:
 the window's multiplicative polynomial baseline enters linearly and is
-solved by weighted linear least squares inside the search (profiled out).
+solved by generalised least squares inside the search (profiled out).
 Each window's batman model is built once and re-evaluated with a new t0
-(shared/STYLE.md).  The uncertainty comes from the curvature of the profile
-χ², σ² = 2 / (d²χ²/dt0²), and is inflated by the time-averaging β factor of
-the residuals (Pont, Zucker & Queloz 2006; Winn et al. 2008, ApJ 683,
-1076).  (The curvature is taken as the Gauss–Newton Fisher information of
-the profiled model.)  :func:`mid_time_mcmc` is the slow reference: emcee over t0 and the
-baseline, kept for the tests.
+(shared/STYLE.md).  The uncertainty is the Fisher information of t0 with
+the baseline profiled out, (F⁻¹)₀₀ with F = JᵀK⁻¹J, J the model's
+derivatives; K is diagonal (the flux errors, times the measured white
+ratio) or a Gaussian process (:mod:`ttvkit.lightcurves.noise`).  Each fit
+also measures the transit depth against its error (the detection check)
+and says whether the search ended at its bound.  The time-averaging β
+(Pont, Zucker & Queloz 2006; Winn et al. 2008, ApJ 683, 1076) is reported,
+and applied only on request: it understates correlated noise.
+Long-cadence points are integrated over the instrument's exposure (batman's
+sub-points placed at the midpoints of equal slices, see
+:class:`WindowModel`).  :func:`mid_time_mcmc` is the slow reference: emcee
+over t0 and the baseline, with the white or the GP likelihood, kept for
+the tests.
 """
 
 from __future__ import annotations
@@ -24,7 +31,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import minimize_scalar
 
 from ttvkit.errors import InputError
 from ttvkit.physics.geometry import contact_durations
@@ -180,12 +186,19 @@ class WindowModel:
         self.design_t = (self.basis * self.weight[:, None]).T     # [k, n]: weighted basis, rows
         self.yy = float(self.flux_w @ self.flux_w)
         self.evaluations = 0
+        self._last = None
 
     def light_curve(self, t0: float) -> np.ndarray:
-        """The transit model (no baseline) for mid-time ``t0`` (BJD_TDB)."""
-        self.params.t0 = t0 - self.centre
+        """The transit model (no baseline) for mid-time ``t0`` (BJD_TDB); the last one is kept."""
+        p = self.params
+        key = (t0, p.rp, p.a, p.inc, p.ecc, p.w, *p.u)    # fit_shape changes the shape between calls
+        if self._last is not None and self._last[0] == key:
+            return self._last[1]
+        p.t0 = t0 - self.centre
         self.evaluations += 1
-        return self.model.light_curve(self.params)
+        m = self.model.light_curve(p)
+        self._last = (key, m)
+        return m
 
     def metric(self, x: np.ndarray) -> np.ndarray:
         """K⁻¹ x for the noise covariance K (here diagonal: the flux errors squared)."""
@@ -291,26 +304,60 @@ def beta_factor(residuals: np.ndarray, sigma: np.ndarray, bin_sizes) -> float:
 
 
 #: Points of the coarse mid-time grid before the bracketed Brent refinement.
-GRID_POINTS = 11
+GRID_POINTS = 9
 
 
 def _search(model: WindowModel, predicted: float, half: float, tol: float) -> tuple[float, bool]:
     """The χ²-minimising offset from ``predicted`` within ±half, and whether it sits at the bound.
 
-    A coarse grid (spacing half/5, below the ingress of any transit whose
-    ingress is resolved) finds the basin; Brent's bounded method refines it
-    inside the two neighbouring grid cells.  Offsets, not BJDs: Brent's
-    tolerance has a term relative to |x|, which at BJD ~ 2.46e6 would be ~0.04 d.
+    A coarse grid (spacing half/4; the noiseless χ² rises monotonically away from
+    its minimum out to ~T14, so the best grid point is next to it) finds the
+    basin; safeguarded parabolic steps (:func:`_refine`) close in on it.
+    Offsets, not BJDs: a tolerance relative to |x| would be ~0.04 d at BJD ~ 2.46e6.
     """
     grid = np.linspace(-half, half, GRID_POINTS)
-    values = [model.chi2(predicted + d) for d in grid]
+
+    def f(d):
+        return model.chi2(predicted + d)
+
+    values = [f(d) for d in grid]
     i = int(np.argmin(values))
-    step = grid[1] - grid[0]
-    lo, hi = max(grid[i] - step, -half), min(grid[i] + step, half)
-    res = minimize_scalar(lambda d: model.chi2(predicted + d), bounds=(lo, hi), method="bounded",
-                          options={"xatol": tol})
-    offset = float(res.x) if res.fun <= values[i] else float(grid[i])
+    if 0 < i < grid.size - 1:
+        x, fx = grid[i], values[i]
+        lo, flo, hi, fhi = grid[i - 1], values[i - 1], grid[i + 1], values[i + 1]
+    else:   # best at an end: bracket the end cell around its midpoint
+        j = 1 if i == 0 else grid.size - 2
+        lo, hi = min(grid[i], grid[j]), max(grid[i], grid[j])
+        flo, fhi = (values[i], values[j]) if i == 0 else (values[j], values[i])
+        x = 0.5 * (lo + hi)
+        fx = f(x)
+        if fx > min(flo, fhi):
+            return float(grid[i]), True
+    offset = _refine(f, lo, x, hi, flo, fx, fhi, tol)
     return offset, abs(offset) > half - 3 * tol
+
+
+def _refine(f, a, b, c, fa, fb, fc, tol, max_steps=30) -> float:
+    """Minimise f inside a < b < c (f(b) below both ends) to ``tol``: parabolic steps through the
+    three best points, a golden-section step when the parabola points outside the bracket."""
+    for _ in range(max_steps):
+        den = (b - a) * (fb - fc) - (b - c) * (fb - fa)
+        x = b - 0.5 * ((b - a) ** 2 * (fb - fc) - (b - c) ** 2 * (fb - fa)) / den if den != 0 else np.nan
+        if abs(x - b) < tol and c - a < 20 * tol:   # the vertex is where we are, in a tight bracket
+            return float(b)
+        if not a < x < c or abs(x - b) < tol:       # outside, or a stall in a wide bracket: golden step
+            x = b + 0.381966 * ((c - b) if c - b > b - a else (a - b))
+        fx = f(x)
+        if fx < fb:
+            a, fa, c, fc = (a, fa, b, fb) if x < b else (b, fb, c, fc)
+            b, fb = x, fx
+        elif x < b:
+            a, fa = x, fx
+        else:
+            c, fc = x, fx
+        if c - a < 2 * tol:
+            return float(b)
+    return float(b)
 
 
 def _curvature_and_depth(model: WindowModel, t0: float, h: float):
@@ -322,21 +369,23 @@ def _curvature_and_depth(model: WindowModel, t0: float, h: float):
     by generalised least squares (a = 1: the shape's depth).
     """
     m0 = model.light_curve(t0)
-    a = m0[:, None] * model.basis
-    base = model.basis @ model._solve(m0)
+    basis = model.basis
+    k = basis.shape[1]
+    base = basis @ model._solve(m0)
     slope = (model.light_curve(t0 + h) - model.light_curve(t0 - h)) / (2 * h) * base
-    j = np.column_stack([slope, a])
-    fisher = j.T @ model.metric(j)
+    x = np.column_stack([slope, m0[:, None] * basis, basis, (m0 - 1) * base, model.flux])
+    g = x.T @ model.metric(x)     # one K⁻¹ for every column: timing, depth and data
     try:
-        variance = float(np.linalg.inv(fisher)[0, 0])
-        d = np.column_stack([model.basis, (m0 - 1) * base])
-        normal = d.T @ model.metric(d)
-        coef = np.linalg.solve(normal, model.metric(d).T @ model.flux)
-        depth, depth_var = float(coef[-1]), float(np.linalg.inv(normal)[-1, -1])
+        fr = np.linalg.solve(g[1:k + 1, 1:k + 1], g[1:k + 1, 0])
+        variance = 1.0 / float(g[0, 0] - g[0, 1:k + 1] @ fr)
+        idx = np.arange(k + 1, 2 * k + 2)
+        rhs = np.column_stack([g[idx, -1], np.eye(k + 1)[:, -1]])
+        sol = np.linalg.solve(g[np.ix_(idx, idx)], rhs)
+        depth, depth_var = float(sol[-1, 0]), float(sol[-1, 1])
     except np.linalg.LinAlgError:
         variance, depth, depth_var = np.nan, 0.0, np.inf
     white = float(np.sqrt(variance)) if variance > 0 else np.nan
-    return white, depth, float(np.sqrt(depth_var)), model.flux - m0 * base
+    return white, depth, float(np.sqrt(max(depth_var, 0.0))), model.flux - m0 * base
 
 
 def fit_mid_time(window, shape: TransitShape, search: float | None = None, baseline_order: int = 1,
@@ -378,16 +427,16 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
     # Stop when the mid-time is known to 1/50 of its expected precision
     # (the Carter et al. 2008 bound for this window), far below its error.
     cadence = float(window.time[-1] - window.time[0]) / max(window.time.size - 1, 1)
-    expected = float(np.median(err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
+    expected = float(np.mean(err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
     tol = max(min(expected / 50, tau * 1e-3), 1e-8)
     offset, at_bound = _search(model, window.predicted, half, tol)
     t_best = float(window.predicted + offset)
+    chi2 = model.chi2(t_best)     # before the derivative: the kept model is t_best's
     white, depth, depth_error, resid = _curvature_and_depth(model, t_best, max(tau / 10, 1e-6))
     n_tau = max(2, int(round(tau / cadence)))
     sizes = sorted({int(round(max(2, n_tau / 2) * 4 ** (i / 4))) for i in range(5)})
     beta = beta_factor(resid / err, np.ones(window.time.size), sizes)
     sigma = white * (beta if correlated_noise else 1.0)
-    chi2 = model.chi2(t_best)
     at_prediction = None
     if at_bound or not depth >= 5 * depth_error:   # no transit found: what is at the predicted time?
         _, d, e, _ = _curvature_and_depth(model, window.predicted, max(tau / 10, 1e-6))

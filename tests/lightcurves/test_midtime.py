@@ -6,8 +6,9 @@ import pytest
 
 from ttvkit import InputError
 from ttvkit.lightcurves.measure import fit_shape, measure
-from ttvkit.lightcurves.midtime import TransitShape, fit_mid_time, mid_time_mcmc
+from ttvkit.lightcurves.midtime import TransitShape, fit_mid_time
 from ttvkit.lightcurves.reading import Window, cut_windows, read_light_curve
+from ttvkit.lightcurves.reference import mid_time_mcmc
 from ttvkit.timing import Ephemeris
 
 # Winn (2010) worked case (shared/CHECKS.md): P = 3 d, a/R* = 8, k = 0.1, b = 0.3.

@@ -17,10 +17,11 @@ import numpy as np
 import pytest
 from lightcurves.lc_sim import MINUTE, SHAPE, exposed, simulate_curve
 
-from ttvkit.lightcurves.midtime import WindowModel, fit_mid_time, mid_time_mcmc
+from ttvkit.lightcurves.midtime import WindowModel, fit_mid_time
 from ttvkit.lightcurves.noise import fit_red_noise
 from ttvkit.lightcurves.per_curve import supersampled, time_light_curve
 from ttvkit.lightcurves.reading import Window, cut_windows
+from ttvkit.lightcurves.reference import mid_time_mcmc
 
 T14, TAU = SHAPE.durations()
 

@@ -21,7 +21,7 @@ and says whether the search ended at its bound.  The time-averaging β
 and applied only on request: it understates correlated noise.
 Long-cadence points are integrated over the instrument's exposure (batman's
 sub-points placed at the midpoints of equal slices, see
-:class:`WindowModel`).  :func:`mid_time_mcmc` is the slow reference: emcee
+:class:`WindowModel`).  :func:`ttvkit.lightcurves.reference.mid_time_mcmc` is the slow reference: emcee
 over t0 and the baseline, with the white or the GP likelihood, kept for
 the tests.
 """
@@ -33,10 +33,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ttvkit.errors import InputError
+from ttvkit.lightcurves.search import search_mid_time
 from ttvkit.physics.geometry import contact_durations
 
-__all__ = ["TransitShape", "WindowModel", "MidTime", "fit_mid_time", "beta_factor", "mid_time_mcmc",
-           "shape_from_toml"]
+__all__ = ["TransitShape", "WindowModel", "MidTime", "fit_mid_time", "beta_factor", "shape_from_toml"]
 
 
 @dataclass(frozen=True)
@@ -303,63 +303,6 @@ def beta_factor(residuals: np.ndarray, sigma: np.ndarray, bin_sizes) -> float:
     return float(max(1.0, median))
 
 
-#: Points of the coarse mid-time grid before the bracketed Brent refinement.
-GRID_POINTS = 9
-
-
-def _search(model: WindowModel, predicted: float, half: float, tol: float) -> tuple[float, bool]:
-    """The χ²-minimising offset from ``predicted`` within ±half, and whether it sits at the bound.
-
-    A coarse grid (spacing half/4; the noiseless χ² rises monotonically away from
-    its minimum out to ~T14, so the best grid point is next to it) finds the
-    basin; safeguarded parabolic steps (:func:`_refine`) close in on it.
-    Offsets, not BJDs: a tolerance relative to |x| would be ~0.04 d at BJD ~ 2.46e6.
-    """
-    grid = np.linspace(-half, half, GRID_POINTS)
-
-    def f(d):
-        return model.chi2(predicted + d)
-
-    values = [f(d) for d in grid]
-    i = int(np.argmin(values))
-    if 0 < i < grid.size - 1:
-        x, fx = grid[i], values[i]
-        lo, flo, hi, fhi = grid[i - 1], values[i - 1], grid[i + 1], values[i + 1]
-    else:   # best at an end: bracket the end cell around its midpoint
-        j = 1 if i == 0 else grid.size - 2
-        lo, hi = min(grid[i], grid[j]), max(grid[i], grid[j])
-        flo, fhi = (values[i], values[j]) if i == 0 else (values[j], values[i])
-        x = 0.5 * (lo + hi)
-        fx = f(x)
-        if fx > min(flo, fhi):
-            return float(grid[i]), True
-    offset = _refine(f, lo, x, hi, flo, fx, fhi, tol)
-    return offset, abs(offset) > half - 3 * tol
-
-
-def _refine(f, a, b, c, fa, fb, fc, tol, max_steps=30) -> float:
-    """Minimise f inside a < b < c (f(b) below both ends) to ``tol``: parabolic steps through the
-    three best points, a golden-section step when the parabola points outside the bracket."""
-    for _ in range(max_steps):
-        den = (b - a) * (fb - fc) - (b - c) * (fb - fa)
-        x = b - 0.5 * ((b - a) ** 2 * (fb - fc) - (b - c) ** 2 * (fb - fa)) / den if den != 0 else np.nan
-        if abs(x - b) < tol and c - a < 20 * tol:   # the vertex is where we are, in a tight bracket
-            return float(b)
-        if not a < x < c or abs(x - b) < tol:       # outside, or a stall in a wide bracket: golden step
-            x = b + 0.381966 * ((c - b) if c - b > b - a else (a - b))
-        fx = f(x)
-        if fx < fb:
-            a, fa, c, fc = (a, fa, b, fb) if x < b else (b, fb, c, fc)
-            b, fb = x, fx
-        elif x < b:
-            a, fa = x, fx
-        else:
-            c, fc = x, fx
-        if c - a < 2 * tol:
-            return float(b)
-    return float(b)
-
-
 def _curvature_and_depth(model: WindowModel, t0: float, h: float):
     """Mid-time σ from the Fisher information (baseline profiled), the depth scale ± σ, the residuals.
 
@@ -429,7 +372,7 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
     cadence = float(window.time[-1] - window.time[0]) / max(window.time.size - 1, 1)
     expected = float(np.mean(err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
     tol = max(min(expected / 50, tau * 1e-3), 1e-8)
-    offset, at_bound = _search(model, window.predicted, half, tol)
+    offset, at_bound = search_mid_time(model.chi2, window.predicted, half, tol)
     t_best = float(window.predicted + offset)
     chi2 = model.chi2(t_best)     # before the derivative: the kept model is t_best's
     white, depth, depth_error, resid = _curvature_and_depth(model, t_best, max(tau / 10, 1e-6))
@@ -444,39 +387,3 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
     return MidTime(window.epoch, t_best, sigma, white, beta, chi2, int(window.time.size), model.evaluations,
                    window.coverage, window.source, depth, depth_error, bool(at_bound), source, error_scale,
                    resid, at_prediction)
-
-
-def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: int = 16, seed: int = 0,
-                  baseline_order: int = 1, red=None) -> tuple[float, float]:
-    """Slow reference: emcee over the mid-time and the baseline coefficients.
-
-    Returns the posterior median and standard deviation of the mid-time
-    (days), without β inflation.  Uniform priors.  With ``red`` (a
-    :class:`~ttvkit.lightcurves.noise.RedNoise`) the likelihood is that GP's.
-    """
-    import emcee
-
-    if red is None:
-        model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
-    else:
-        from ttvkit.lightcurves.noise import GPWindowModel
-
-        model = GPWindowModel(window.time, window.flux, window.flux_err, shape, baseline_order, red)
-    fast = fit_mid_time(window, shape, baseline_order=baseline_order, red=red)
-    k = baseline_order + 1
-    coef0 = model._solve(model.light_curve(fast.time))
-
-    def log_prob(theta):
-        m = model.light_curve(theta[0])
-        r = model.flux - (m[:, None] * model.basis) @ theta[1:]
-        return -0.5 * float(r @ model.metric(r))
-
-    rng = np.random.default_rng(seed)
-    start = np.concatenate([[fast.time], coef0])
-    scale = np.concatenate([[fast.white_uncertainty], np.full(k, 1e-5)])
-    p0 = start + 0.1 * scale * rng.standard_normal((n_walkers, k + 1))
-    sampler = emcee.EnsembleSampler(n_walkers, k + 1, log_prob)
-    sampler.random_state = np.random.RandomState(seed).get_state()
-    sampler.run_mcmc(p0, n_steps, progress=False)
-    chain = sampler.get_chain(discard=n_steps // 3, flat=True)[:, 0]
-    return float(np.median(chain)), float(np.std(chain))

@@ -361,9 +361,7 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
         model = WindowModel(window.time, window.flux, err, shape, baseline_order)
         source = "flux_err" if error_scale == 1.0 else "flux_err x ratio"
     else:
-        from ttvkit.lightcurves.noise import GPWindowModel
-
-        model = GPWindowModel(window.time, window.flux, err, shape, baseline_order, red)
+        model = red.window_model(window.time, window.flux, err, shape, baseline_order)
         source = "gp"
     t14, tau = shape.durations()
     half = search if search is not None else 0.25 * t14

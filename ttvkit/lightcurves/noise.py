@@ -43,6 +43,10 @@ class RedNoise:
     white_scale: float
     gain: float
 
+    def window_model(self, time, flux, flux_err, shape, baseline_order: int = 1) -> GPWindowModel:
+        """A window's model with this GP's likelihood (``flux_err``: the given errors)."""
+        return GPWindowModel(time, flux, flux_err, shape, baseline_order, self)
+
     @property
     def detected(self) -> bool:
         """True when the data need the correlated term (2 Δln L > :data:`RED_NOISE_THRESHOLD`)."""

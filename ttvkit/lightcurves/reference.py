@@ -22,9 +22,7 @@ def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: i
     if red is None:
         model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
     else:
-        from ttvkit.lightcurves.noise import GPWindowModel
-
-        model = GPWindowModel(window.time, window.flux, window.flux_err, shape, baseline_order, red)
+        model = red.window_model(window.time, window.flux, window.flux_err, shape, baseline_order)
     fast = fit_mid_time(window, shape, baseline_order=baseline_order, red=red)
     k = baseline_order + 1
     coef0 = model._solve(model.light_curve(fast.time))

@@ -11,16 +11,33 @@ cost of one fit in units of one batman evaluation of the same window
 mid-times over the Carter et al. (2008) bound; the pull std; and the peak
 memory per transit of a streamed `measure` run at two sizes (flat = the
 same).
+
+Then the noise table (``midtime-noise:``): 500 simulated transits per case
+(CPU times of this process throughout, time.process_time: the machine is
+shared, and wall-clock rates would measure the neighbours)
+(50 light curves of 10 windows, tests/lightcurves/lc_sim.py, fixed seeds)
+timed by the default ``noise="auto"`` path — white noise, AR(1) red noise of
+500 ppm / 15 min and 1000 ppm / 30 min on 1000 ppm white, flux errors given
+2x too large and 2x too small, 30-min cadence — the pull std of each, the
+worst fraction beyond 3 sigma, and the cost per transit of the correlated
+(GP) path over the white path on the same red-noise light curves.
 """
 
+import sys
 import time
 import tracemalloc
+from pathlib import Path
 
 import batman
 import numpy as np
 
 from ttvkit.lightcurves.midtime import TransitShape, WindowModel, fit_mid_time
-from ttvkit.lightcurves.reading import Window
+from ttvkit.lightcurves.per_curve import time_light_curve
+from ttvkit.lightcurves.reading import Window, cut_windows
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
+from lightcurves.lc_sim import MINUTE, simulate_curve  # noqa: E402
+from lightcurves.lc_sim import SHAPE as LD_SHAPE  # noqa: E402
 
 SHAPE = TransitShape(period=3.0, radius_ratio=0.1, a_over_rstar=8.0, impact_parameter=0.3, q1=1e-12, q2=0.0)
 N, POINTS, SIGMA = 3000, 200, 1e-3
@@ -40,16 +57,16 @@ def windows(rng, n):
 def main():
     rng = np.random.default_rng(7)
     data = list(windows(rng, N))
-    start = time.perf_counter()
+    start = time.process_time()
     fits = [fit_mid_time(w, SHAPE) for w, _, _ in data]
-    elapsed = time.perf_counter() - start
+    elapsed = time.process_time() - start
     w0 = data[0][0]
     model = WindowModel(w0.time, w0.flux, w0.flux_err, SHAPE)
     reps = 5000
-    t1 = time.perf_counter()
+    t1 = time.process_time()
     for i in range(reps):
         model.light_curve(1e-4 * (i % 7))
-    one_eval = (time.perf_counter() - t1) / reps
+    one_eval = (time.process_time() - t1) / reps
     errors = np.array([f.time - truth for f, (_, truth, _) in zip(fits, data)])
     pulls = errors / np.array([f.uncertainty for f in fits])
     _, tau = SHAPE.durations()
@@ -57,8 +74,9 @@ def main():
     carter = SIGMA / SHAPE.radius_ratio ** 2 * np.sqrt(tau / (2 / cadence))
     rate = N / elapsed
     ratio = (elapsed / N) / one_eval
-    print(f"  {N} fits in {elapsed:.2f} s; one batman evaluation {one_eval * 1e6:.1f} us; "
-          f"{np.mean([f.evaluations for f in fits]):.1f} model calls per fit")
+    print(f"  {N} fits in {elapsed:.2f} s CPU; one batman evaluation {one_eval * 1e6:.1f} us; "
+          f"{np.mean([f.evaluations for f in fits]):.1f} batman calls per fit (the cost line below also "
+          "counts the Python around them)")
     for n in (500, 2000):
         gen = windows(np.random.default_rng(8), n)
         tracemalloc.start()
@@ -71,5 +89,47 @@ def main():
           f"scatter/Carter {np.std(errors) / carter:.2f}; pull std {np.std(pulls):.2f}")
 
 
+NOISE_CASES = {
+    "white": {},
+    "red R1": {"red": (5e-4, 15 * MINUTE)},
+    "red R2": {"red": (1e-3, 30 * MINUTE)},
+    "errors 2x high": {"given": 2e-3},
+    "errors 2x low": {"given": 5e-4},
+    "long cadence": {"cadence": 30 * MINUTE, "exposure": 30 * MINUTE, "white": 3e-4},
+}
+
+
+def pulls(kw, seed, curves=50, noise="auto"):
+    """Pulls of ``curves`` x 10 simulated transits, the seconds spent timing them, untimed count."""
+    rng = np.random.default_rng(seed)
+    t14, tau = LD_SHAPE.durations()
+    out, spent, untimed = [], 0.0, 0
+    for _ in range(curves):
+        lc, truths, eph = simulate_curve(rng, **kw)
+        start = time.process_time()
+        timed, skipped, _ = time_light_curve(lc, cut_windows(lc, eph, t14, tau), LD_SHAPE, noise)
+        spent += time.process_time() - start
+        untimed += len(skipped)
+        out += [(m.time - truths[m.epoch]) / m.uncertainty for m in timed]
+    return np.array(out), spent, untimed
+
+
+def noise_table():
+    stds, beyond = {}, []
+    for i, (name, kw) in enumerate(NOISE_CASES.items()):
+        p, spent, untimed = pulls(kw, 2000 + i)
+        stds[name] = np.std(p)
+        beyond.append(np.mean(np.abs(p) > 3))
+        print(f"  {name}: {p.size} transits, {untimed} untimed, pull std {stds[name]:.3f}, "
+              f"beyond 3 sigma {100 * beyond[-1]:.1f}%, {1e3 * spent / max(p.size, 1):.2f} ms/transit")
+    _, white_cost, _ = pulls(NOISE_CASES["red R1"], 2001, curves=20, noise="white")
+    _, gp_cost, _ = pulls(NOISE_CASES["red R1"], 2001, curves=20, noise="gp")
+    print(f"midtime-noise: pull std white {stds['white']:.2f}, red {stds['red R1']:.2f}, "
+          f"red {stds['red R2']:.2f}, errors 2x high {stds['errors 2x high']:.2f}, "
+          f"errors 2x low {stds['errors 2x low']:.2f}, long cadence {stds['long cadence']:.2f}; "
+          f"beyond 3 sigma {100 * max(beyond):.1f}%; correlated path {gp_cost / white_cost:.1f}x the white cost")
+
+
 if __name__ == "__main__":
+    noise_table()
     main()

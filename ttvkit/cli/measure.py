@@ -30,7 +30,8 @@ def add_commands(sub) -> None:
     p = sub.add_parser("measure", help="mid-times from light curves (batman shape, per-transit fits)",
                        description="Cut a window around every predicted transit, fix or fit the transit "
                                    "shape, fit each window's mid-time with its baseline profiled out, "
-                                   "inflate by the β factor of correlated noise, write a timing table.",
+                                   "measure the noise (white level, correlated noise), write a timing "
+                                   "table; every untimed transit is listed with its reason.",
                        epilog=_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("light_curves", nargs="+", metavar="LIGHTCURVE", help="CSV, ECSV or FITS light curves")
     p.add_argument("--ephemeris", required=True, metavar="T0,P", help="reference ephemeris (BJD_TDB days, days)")
@@ -45,6 +46,9 @@ def add_commands(sub) -> None:
                    help="map a column: time, flux, flux_err, quality (repeatable)")
     p.add_argument("--partial", action="store_true", help="also time transits with ingress or egress missing")
     p.add_argument("--baseline-order", type=int, default=1, help="polynomial baseline degree (default 1)")
+    p.add_argument("--noise", choices=["auto", "white", "gp", "given"], default="auto",
+                   help="uncertainties from: the measured white level (white), a correlated-noise GP (gp), "
+                        "the GP where the data need it (auto, default), the flux errors as given (given)")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     add_target_options(p)
@@ -66,21 +70,24 @@ def _cmd_measure(args) -> int:
     options = MeasureOptions(shape=shape_from_toml(args.shape) if args.shape else None, fit_shape=args.fit_shape,
                              standard=args.standard, preset=args.preset, columns=columns,
                              target=parse_target(args), observer=parse_observer(args), time_partial=args.partial,
-                             baseline_order=args.baseline_order)
+                             baseline_order=args.baseline_order, noise=args.noise)
     table, report = measure(args.light_curves, ephemeris, options, progress=not args.no_progress and not args.json)
     table.write(args.out, overwrite=args.force)
     summary = {"output": str(args.out), **report.to_dict(),
                "median_uncertainty_s": float(np.median(table.uncertainty) * DAY_S),
-               "median_beta": float(np.median(table.extra["beta"]))}
+               "median_beta": float(np.median(table.extra["beta"])),
+               "median_noise_ratio": float(np.median(table.extra["noise_ratio"]))}
     if args.json:
         print(json.dumps(summary, indent=2, default=float))
         return 0
+    sources = ", ".join(sorted(set(table.extra["error_source"])))
     print(f"timed {report.measured} transit(s) into {args.out}; median uncertainty "
-          f"{summary['median_uncertainty_s']:.1f} s, median β {summary['median_beta']:.2f}")
+          f"{summary['median_uncertainty_s']:.1f} s; errors from {sources} "
+          f"(measured scatter / given errors: median {summary['median_noise_ratio']:.2f})")
     for source, counts in report.dropped.items():
         if any(counts.values()):
             print(f"  {source}: dropped {counts['nan']} NaN, {counts['quality']} flagged, "
                   f"{counts['clipped']} clipped points")
     for s in report.skipped:
-        print(f"  skipped {s['source']} epoch {s['epoch']}: {s['reason']}")
+        print(f"  untimed {s['source']} epoch {s['epoch']}: {s['reason']}")
     return 0

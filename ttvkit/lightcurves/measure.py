@@ -3,10 +3,11 @@
 :func:`measure` reads each light curve (:mod:`ttvkit.lightcurves.reading`), cuts a
 window around every predicted transit, fixes the transit shape — given by
 the user or fitted to all windows at once (:func:`fit_shape`) — and times
-each window (:func:`ttvkit.lightcurves.midtime.fit_mid_time`).  Windows are processed
-one at a time, so memory stays flat with the number of transits.  Windows
-too sparse to time, or partial ones unless asked, are reported and skipped,
-never silently dropped.
+each light curve's windows (:func:`ttvkit.lightcurves.per_curve.time_light_curve`:
+the noise measured, the transit detected).  Light curves are processed one
+at a time, so memory stays flat with the number of light curves.  Every
+window appears in the result: timed (in the table) or untimed with the
+reason (in the report), never silently dropped.
 """
 
 from __future__ import annotations
@@ -17,28 +18,34 @@ import numpy as np
 from scipy.optimize import least_squares
 
 from ttvkit.errors import InputError
-from ttvkit.lightcurves.midtime import TransitShape, WindowModel, fit_mid_time
+from ttvkit.lightcurves.midtime import TransitShape, WindowModel
+from ttvkit.lightcurves.per_curve import NOISE_MODELS, supersampled, time_light_curve
+from ttvkit.lightcurves.reading import cut_windows
 from ttvkit.timing.table import TimingTable
 
 __all__ = ["measure", "MeasureOptions", "fit_shape", "guess_shape", "MeasureReport"]
 
-#: Sub-exposure length for supersampling long cadences (common practice, no source).
-SUBEXPOSURE_DAYS = 2.0 / 1440
-
-
 @dataclass
 class MeasureReport:
-    """What was measured, skipped and dropped."""
+    """What was measured, what was not and why, the points dropped, the noise found.
+
+    ``skipped`` lists every untimed window (source, epoch, coverage,
+    reason) and every light curve that covers no predicted transit (epoch
+    None); ``noise`` has one entry per light curve (white ratio, fitted
+    correlated-noise model and whether it was used).
+    """
 
     measured: int = 0
     skipped: list = field(default_factory=list)
     dropped: dict = field(default_factory=dict)
     shape: TransitShape | None = None
+    noise: list = field(default_factory=list)
 
     def to_dict(self) -> dict:
         """Plain-JSON form."""
         s = self.shape
         return {"measured": self.measured, "skipped": self.skipped, "dropped_points": self.dropped,
+                "noise": self.noise,
                 "shape": None if s is None else {k: getattr(s, k) for k in s.__dataclass_fields__}}
 
 
@@ -71,8 +78,9 @@ def fit_shape(windows, initial: TransitShape, baseline_order: int = 1) -> Transi
         raise InputError("no windows to fit a shape to")
     n = len(windows)
 
-    def shape_of(x):
-        return replace(initial, radius_ratio=x[0], a_over_rstar=x[1], impact_parameter=x[2], q1=x[3], q2=x[4])
+    def shape_of(x):   # b kept below 1 + k: a trial shape that misses the star is not a shape
+        return replace(initial, radius_ratio=x[0], a_over_rstar=x[1], impact_parameter=min(x[2], 0.999 * (1 + x[0])),
+                       q1=x[3], q2=x[4])
 
     models = [None] * n
 
@@ -119,6 +127,11 @@ class MeasureOptions:
         Also time windows with ingress or egress missing (flagged).
     baseline_order : int
         Degree of each window's polynomial baseline (0 to 3).
+    noise : {"auto", "white", "gp", "given"}
+        The uncertainties' noise model: ``white`` rescales the flux errors
+        to the out-of-transit scatter; ``gp`` fits a correlated-noise GP per
+        light curve; ``auto`` (default) uses the GP where the data need it,
+        else ``white``; ``given`` trusts the flux errors.
     """
 
     shape: TransitShape | None = None
@@ -130,8 +143,11 @@ class MeasureOptions:
     observer: object = None
     time_partial: bool = False
     baseline_order: int = 1
+    noise: str = "auto"
 
     def __post_init__(self):
+        if self.noise not in NOISE_MODELS:
+            raise InputError(f"noise model {self.noise!r}: choose one of {', '.join(NOISE_MODELS)}")
         if self.shape is None and not self.fit_shape:
             raise InputError("give a transit shape (--shape SHAPE.toml) or ask for it to be fitted (--fit-shape)")
         if not 0 <= self.baseline_order <= 3:
@@ -159,72 +175,74 @@ def measure(paths, ephemeris, options: MeasureOptions | None = None, *, progress
     Returns
     -------
     (TimingTable, MeasureReport)
-        The table has extra columns ``beta``, ``coverage`` and
-        ``white_uncertainty``; its source label is the light-curve file.
+        The table has extra columns ``beta``, ``coverage``,
+        ``white_uncertainty``, ``error_source`` (which noise model gave the
+        uncertainty), ``noise_ratio`` (out-of-transit scatter / given
+        errors) and ``depth_snr``; its source label is the light-curve file.
+        Untimed windows and their reasons are in the report.
     """
+    from tqdm.auto import tqdm
+
     from ttvkit.lightcurves.inputs import as_light_curves
 
     options = replace(options, **changes) if options is not None else MeasureOptions(**changes)
-    shape, fit_the_shape, time_partial = options.shape, options.fit_shape, options.time_partial
-    baseline_order, target = options.baseline_order, options.target
-    from tqdm.auto import tqdm
-
-    from ttvkit.lightcurves.reading import cut_windows
 
     report = MeasureReport()
     curves = as_light_curves(paths, options)
     for lc in curves:
         report.dropped[lc.source] = lc.dropped
-    base = shape
-    if base is None:
-        rough = [w for lc in curves for w in cut_windows(lc, ephemeris, 0.2 * ephemeris.period, 0.01,
-                                                         half_width=0.15 * ephemeris.period)]
-        if not rough:
-            raise InputError("no light-curve points near any predicted transit: check the ephemeris")
-        base = guess_shape(rough, ephemeris.period)
-    t14, tau = base.durations()
-    windows = [(lc, w) for lc in curves for w in cut_windows(lc, ephemeris, t14, tau)]
-    if not windows:
-        raise InputError("no light-curve points near any predicted transit: check the ephemeris and the "
-                         "time standard")
-    if fit_the_shape:
-        full = [w for _, w in windows if w.coverage == "full"]
-        if not full:
-            raise InputError("no fully covered transit to fit the shape to; give --shape")
-        exposure = max(lc.exposure_time for lc, _ in windows)
-        base = fit_shape(full, _supersampled(base, exposure), baseline_order)
-        t14, tau = base.durations()
-        windows = [(lc, w) for lc in curves for w in cut_windows(lc, ephemeris, t14, tau)]
+    base = _transit_shape(curves, ephemeris, options)
     report.shape = base
+    t14, tau = base.durations()
     rows = []
-    for lc, w in tqdm(windows, desc="transits", disable=not progress):
-        if w.coverage == "sparse" or (w.coverage == "partial" and not time_partial):
-            report.skipped.append({"source": w.source, "epoch": w.epoch, "reason": f"{w.coverage} coverage"
-                                   + ("" if w.coverage == "sparse" else " (use --partial to time it)")})
+    for lc in tqdm(curves, desc="light curves", disable=not progress or len(curves) < 2):
+        windows = cut_windows(lc, ephemeris, t14, tau)
+        if not windows:
+            report.skipped.append({"source": lc.source, "epoch": None, "coverage": "no data",
+                                   "reason": "no light-curve points near any predicted transit (the light curve "
+                                             "covers no transit of this ephemeris)"})
             continue
-        try:
-            m = fit_mid_time(w, _supersampled(base, lc.exposure_time), baseline_order=baseline_order)
-        except InputError as exc:
-            report.skipped.append({"source": w.source, "epoch": w.epoch, "reason": str(exc)})
-            continue
-        rows.append(m)
+        timed, untimed, info = time_light_curve(lc, windows, base, options.noise, options.baseline_order,
+                                                options.time_partial)
+        rows += timed
+        report.skipped += untimed
+        report.noise.append(info)
     if not rows:
         raise InputError("no transit could be timed: " + "; ".join(f"{s['source']} epoch {s['epoch']}: "
                                                                   f"{s['reason']}" for s in report.skipped[:5]))
     report.measured = len(rows)
-    table = TimingTable([r.time for r in rows], [r.uncertainty for r in rows], epoch=[r.epoch for r in rows],
-                        kind="transit", source=[r.source for r in rows], given_standard=_given(options.standard),
-                        target=target, ephemeris=ephemeris,
-                        extra={"beta": np.array([r.beta for r in rows]),
-                               "coverage": np.array([r.coverage for r in rows]),
-                               "white_uncertainty": np.array([r.white_uncertainty for r in rows])})
-    return table, report
+    return _table(rows, ephemeris, options.target, options.standard), report
 
 
-def _supersampled(shape: TransitShape, exposure: float) -> TransitShape:
-    if exposure > 2.5 * SUBEXPOSURE_DAYS:
-        return replace(shape, exposure_time=exposure, supersample=int(np.ceil(exposure / SUBEXPOSURE_DAYS)))
-    return replace(shape, exposure_time=0.0, supersample=1)
+def _transit_shape(curves, ephemeris, options: MeasureOptions) -> TransitShape:
+    """The given shape, or one fitted to every fully covered window."""
+    base = options.shape
+    if base is None:
+        rough = [w for lc in curves for w in cut_windows(lc, ephemeris, 0.2 * ephemeris.period, 0.01,
+                                                         half_width=0.15 * ephemeris.period) if w.time.size]
+        if not rough:
+            raise InputError("no light-curve points near any predicted transit: check the ephemeris")
+        base = guess_shape(rough, ephemeris.period)
+    if not options.fit_shape:
+        return base
+    t14, tau = base.durations()
+    pairs = [(lc, w) for lc in curves for w in cut_windows(lc, ephemeris, t14, tau)]
+    full = [w for _, w in pairs if w.coverage == "full"]
+    if not full:
+        raise InputError("no fully covered transit to fit the shape to; give --shape")
+    exposure = max(lc.exposure_time for lc, _ in pairs)
+    fitted = fit_shape(full, supersampled(base, exposure), options.baseline_order)
+    return replace(fitted, exposure_time=0.0, supersample=1)
+
+
+def _table(rows, ephemeris, target, standard=None) -> TimingTable:
+    def column(name):
+        return np.array([getattr(r, name) for r in rows])
+
+    return TimingTable(column("time"), column("uncertainty"), epoch=column("epoch"), kind="transit",
+                       source=column("source"), given_standard=_given(standard), target=target, ephemeris=ephemeris,
+                       extra={name: column(name) for name in ("beta", "coverage", "white_uncertainty",
+                                                              "error_source", "noise_ratio", "depth_snr")})
 
 
 def _given(standard) -> str:

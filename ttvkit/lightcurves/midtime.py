@@ -9,28 +9,34 @@ points are supersampled over the exposure time (Kipping 2010, MNRAS 408,
 
 With the shape fixed, each window's mid-time is a one-dimensional search:
 the window's multiplicative polynomial baseline enters linearly and is
-solved by weighted linear least squares inside the search (profiled out).
+solved by generalised least squares inside the search (profiled out).
 Each window's batman model is built once and re-evaluated with a new t0
-(shared/STYLE.md).  The uncertainty comes from the curvature of the profile
-χ², σ² = 2 / (d²χ²/dt0²), and is inflated by the time-averaging β factor of
-the residuals (Pont, Zucker & Queloz 2006; Winn et al. 2008, ApJ 683,
-1076).  (The curvature is taken as the Gauss–Newton Fisher information of
-the profiled model.)  :func:`mid_time_mcmc` is the slow reference: emcee over t0 and the
-baseline, kept for the tests.
+(shared/STYLE.md).  The uncertainty is the Fisher information of t0 with
+the baseline profiled out, (F⁻¹)₀₀ with F = JᵀK⁻¹J, J the model's
+derivatives; K is diagonal (the flux errors, times the measured white
+ratio) or a Gaussian process (:mod:`ttvkit.lightcurves.noise`).  Each fit
+also measures the transit depth against its error (the detection check)
+and says whether the search ended at its bound.  The time-averaging β
+(Pont, Zucker & Queloz 2006; Winn et al. 2008, ApJ 683, 1076) is reported,
+and applied only on request: it understates correlated noise.
+Long-cadence points are integrated over the instrument's exposure (batman's
+sub-points placed at the midpoints of equal slices, see
+:class:`WindowModel`).  :func:`ttvkit.lightcurves.reference.mid_time_mcmc` is the slow reference: emcee
+over t0 and the baseline, with the white or the GP likelihood, kept for
+the tests.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import minimize_scalar
 
 from ttvkit.errors import InputError
+from ttvkit.lightcurves.search import search_mid_time
 from ttvkit.physics.geometry import contact_durations
 
-__all__ = ["TransitShape", "WindowModel", "MidTime", "fit_mid_time", "beta_factor", "mid_time_mcmc",
-           "shape_from_toml"]
+__all__ = ["TransitShape", "WindowModel", "MidTime", "fit_mid_time", "beta_factor", "shape_from_toml"]
 
 
 @dataclass(frozen=True)
@@ -65,6 +71,21 @@ class TransitShape:
     omega: float = 90.0
     exposure_time: float = 0.0
     supersample: int = 1
+
+    def __post_init__(self):
+        k, b = self.radius_ratio, self.impact_parameter
+        rules = [("period", self.period > 0, "must be positive"),
+                 ("radius_ratio", 0 < k < 1, "must be between 0 and 1"),
+                 ("a_over_rstar", self.a_over_rstar > 1, "must exceed 1"),
+                 ("impact_parameter", 0 <= b < 1 + k, "must be in [0, 1 + radius_ratio): otherwise no transit"),
+                 ("q1", 0 <= self.q1 <= 1, "must be in [0, 1] (Kipping 2013)"),
+                 ("q2", 0 <= self.q2 <= 1, "must be in [0, 1] (Kipping 2013)"),
+                 ("eccentricity", 0 <= self.eccentricity < 1, "must be in [0, 1)"),
+                 ("exposure_time", self.exposure_time >= 0, "must not be negative"),
+                 ("supersample", self.supersample >= 1, "must be at least 1")]
+        for name, ok, why in rules:   # NaN fails every comparison, so it is refused too
+            if not ok:
+                raise InputError(f"transit shape: {name} = {getattr(self, name)!r} {why}")
 
     @property
     def limb_darkening(self) -> tuple[float, float]:
@@ -123,7 +144,10 @@ def shape_from_toml(path) -> TransitShape:
     for key in ("period", "radius_ratio", "a_over_rstar", "impact_parameter"):
         if key not in kwargs:
             raise InputError(f"{path}: [shape] needs {key}")
-    return TransitShape(**kwargs)
+    try:
+        return TransitShape(**kwargs)
+    except InputError as exc:
+        raise InputError(f"{path}: [shape]: {exc}") from None
 
 
 class WindowModel:
@@ -148,7 +172,12 @@ class WindowModel:
         self.params = shape.batman_params(self.centre)
         kw = {}
         if shape.exposure_time > 0 and shape.supersample > 1:
-            kw = {"supersample_factor": int(shape.supersample), "exp_time": float(shape.exposure_time)}
+            n = int(shape.supersample)
+            # batman places its n sub-points at linspace(-exp_time/2, exp_time/2, n), ends included, with
+            # equal weights: an effective exposure of exp_time * n / (n - 1) (checked numerically in
+            # tests/lightcurves/test_noise.py).  Asking for exposure * (n - 1) / n puts the sub-points at
+            # the midpoints of n equal slices of the instrument's exposure.
+            kw = {"supersample_factor": n, "exp_time": float(shape.exposure_time) * (n - 1) / n}
         # batman models the time relative to t0 internally; pass times relative to the window centre
         self.model = batman.TransitModel(self.params, self.time - self.centre, **kw)
         x = (self.time - self.centre) / max(np.ptp(self.time), 1e-9)
@@ -157,15 +186,27 @@ class WindowModel:
         self.design_t = (self.basis * self.weight[:, None]).T     # [k, n]: weighted basis, rows
         self.yy = float(self.flux_w @ self.flux_w)
         self.evaluations = 0
+        self._last = None
 
     def light_curve(self, t0: float) -> np.ndarray:
-        """The transit model (no baseline) for mid-time ``t0`` (BJD_TDB)."""
-        self.params.t0 = t0 - self.centre
+        """The transit model (no baseline) for mid-time ``t0`` (BJD_TDB); the last one is kept."""
+        p = self.params
+        key = (t0, p.rp, p.a, p.inc, p.ecc, p.w, *p.u)    # fit_shape changes the shape between calls
+        if self._last is not None and self._last[0] == key:
+            return self._last[1]
+        p.t0 = t0 - self.centre
         self.evaluations += 1
-        return self.model.light_curve(self.params)
+        m = self.model.light_curve(p)
+        self._last = (key, m)
+        return m
+
+    def metric(self, x: np.ndarray) -> np.ndarray:
+        """K⁻¹ x for the noise covariance K (here diagonal: the flux errors squared)."""
+        w2 = self.weight ** 2
+        return x * (w2[:, None] if np.ndim(x) == 2 else w2)
 
     def _normal(self, m: np.ndarray):
-        """Normal equations AᵀA, Aᵀy of the baseline for the transit model ``m``."""
+        """Normal equations AᵀK⁻¹A, AᵀK⁻¹y of the baseline for the transit model ``m``."""
         a = m * self.design_t
         return a @ a.T, a @ self.flux_w
 
@@ -179,7 +220,7 @@ class WindowModel:
         return np.linalg.solve(normal, rhs)
 
     def chi2(self, t0: float) -> float:
-        """Profile χ² = yᵀy − (Aᵀy)ᵀ(AᵀA)⁻¹(Aᵀy): the baseline solved by weighted least squares."""
+        """Profile χ² = yᵀK⁻¹y − (AᵀK⁻¹y)ᵀ(AᵀK⁻¹A)⁻¹(AᵀK⁻¹y): the baseline solved by least squares."""
         normal, rhs = self._normal(self.light_curve(t0))
         if normal.shape == (2, 2):  # the quadratic form in closed form: this is the hot path
             det = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
@@ -190,7 +231,7 @@ class WindowModel:
         return self.yy - float(explained)
 
     def profile_chi2(self, t0: float) -> tuple[float, np.ndarray]:
-        """χ² with the baseline solved by weighted linear least squares; and the model."""
+        """White-noise χ² with the baseline solved by weighted linear least squares; and the model."""
         m = self.light_curve(t0)
         model = (m[:, None] * self.basis) @ self._solve(m)
         r = (self.flux - model) * self.weight
@@ -199,7 +240,16 @@ class WindowModel:
 
 @dataclass(frozen=True)
 class MidTime:
-    """One fitted mid-time."""
+    """One fitted mid-time (days), its uncertainty and the checks that decide whether it stands.
+
+    ``depth`` is the fitted depth in units of the shape's depth (1 = as
+    expected) and ``depth_error`` its uncertainty; ``at_bound`` says the
+    search ended at its bound; ``error_source`` says which noise model gave
+    the uncertainty (``flux_err``, ``flux_err x ratio`` or ``gp``) and
+    ``noise_ratio`` the out-of-transit scatter over the given errors.
+    ``predicted_depth_snr`` is the depth S/N at the predicted time, kept
+    when the fit found no transit (a brightening there means magnitudes).
+    """
 
     epoch: int
     time: float
@@ -211,6 +261,18 @@ class MidTime:
     evaluations: int
     coverage: str
     source: str
+    depth: float = 1.0
+    depth_error: float = 0.0
+    at_bound: bool = False
+    error_source: str = "flux_err"
+    noise_ratio: float = 1.0
+    residuals: np.ndarray | None = field(default=None, repr=False, compare=False)
+    predicted_depth_snr: float | None = None
+
+    @property
+    def depth_snr(self) -> float:
+        """Fitted depth over its uncertainty."""
+        return self.depth / self.depth_error if self.depth_error > 0 else 0.0
 
 
 def beta_factor(residuals: np.ndarray, sigma: np.ndarray, bin_sizes) -> float:
@@ -241,8 +303,36 @@ def beta_factor(residuals: np.ndarray, sigma: np.ndarray, bin_sizes) -> float:
     return float(max(1.0, median))
 
 
+def _curvature_and_depth(model: WindowModel, t0: float, h: float):
+    """Mid-time σ from the Fisher information (baseline profiled), the depth scale ± σ, the residuals.
+
+    Fisher matrix F = JᵀK⁻¹J with J = [∂model/∂t0, baseline columns]: the
+    mid-time variance is (F⁻¹)₀₀, i.e. the baseline's correlation with t0
+    profiled out.  The depth check fits flux = baseline + a (m − 1) baseline
+    by generalised least squares (a = 1: the shape's depth).
+    """
+    m0 = model.light_curve(t0)
+    basis = model.basis
+    k = basis.shape[1]
+    base = basis @ model._solve(m0)
+    slope = (model.light_curve(t0 + h) - model.light_curve(t0 - h)) / (2 * h) * base
+    x = np.column_stack([slope, m0[:, None] * basis, basis, (m0 - 1) * base, model.flux])
+    g = x.T @ model.metric(x)     # one K⁻¹ for every column: timing, depth and data
+    try:
+        fr = np.linalg.solve(g[1:k + 1, 1:k + 1], g[1:k + 1, 0])
+        variance = 1.0 / float(g[0, 0] - g[0, 1:k + 1] @ fr)
+        idx = np.arange(k + 1, 2 * k + 2)
+        rhs = np.column_stack([g[idx, -1], np.eye(k + 1)[:, -1]])
+        sol = np.linalg.solve(g[np.ix_(idx, idx)], rhs)
+        depth, depth_var = float(sol[-1, 0]), float(sol[-1, 1])
+    except np.linalg.LinAlgError:
+        variance, depth, depth_var = np.nan, 0.0, np.inf
+    white = float(np.sqrt(variance)) if variance > 0 else np.nan
+    return white, depth, float(np.sqrt(max(depth_var, 0.0))), model.flux - m0 * base
+
+
 def fit_mid_time(window, shape: TransitShape, search: float | None = None, baseline_order: int = 1,
-                 correlated_noise: bool = True) -> MidTime:
+                 correlated_noise: bool = False, red=None, error_scale: float = 1.0) -> MidTime:
     """Fit one window's mid-time with the shape fixed.
 
     Parameters
@@ -254,76 +344,44 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
         (default a quarter of the transit duration).
     baseline_order : int
     correlated_noise : bool
-        Inflate the uncertainty by the β factor.
+        Inflate the uncertainty by the β factor (kept for comparison: β is
+        always reported, and understates correlated noise; use ``red``).
+    red : ttvkit.lightcurves.noise.RedNoise, optional
+        A fitted correlated-noise model: the likelihood is a Gaussian process.
+    error_scale : float
+        Factor applied to the window's flux errors (the measured white level).
 
     Returns
     -------
     MidTime
+        Check ``at_bound`` and ``depth_snr`` before trusting it.
     """
-    model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
+    err = np.asarray(window.flux_err, float) * error_scale
+    if red is None:
+        model = WindowModel(window.time, window.flux, err, shape, baseline_order)
+        source = "flux_err" if error_scale == 1.0 else "flux_err x ratio"
+    else:
+        model = red.window_model(window.time, window.flux, err, shape, baseline_order)
+        source = "gp"
     t14, tau = shape.durations()
     half = search if search is not None else 0.25 * t14
     # Stop when the mid-time is known to 1/50 of its expected precision
     # (the Carter et al. 2008 bound for this window), far below its error.
     cadence = float(window.time[-1] - window.time[0]) / max(window.time.size - 1, 1)
-    expected = float(np.median(window.flux_err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
+    expected = float(np.mean(err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
     tol = max(min(expected / 50, tau * 1e-3), 1e-8)
-    # Search in the offset from the prediction: Brent's tolerance has a term
-    # relative to |x|, which at BJD ~ 2.46e6 would be ~0.04 d.
-    res = minimize_scalar(lambda d: model.chi2(window.predicted + d), bounds=(-half, half),
-                          method="bounded", options={"xatol": tol})
-    t_best = float(window.predicted + res.x)
-    # Curvature of the profile χ² from the model's derivative (Gauss–Newton,
-    # the expected Fisher information): d²χ²/dt0² = 2 Σ (∂m/∂t0)² / σ², with
-    # the baseline re-solved at t0 ± h so its correlation with t0 is
-    # profiled out.  Unlike a second difference of the observed χ², this is
-    # not thrown about by the kinks of the model at the contact points.
-    h = max(tau / 10, 1e-6)
-    chi2, best_model = model.profile_chi2(t_best)
-    _, m_plus = model.profile_chi2(t_best + h)
-    _, m_minus = model.profile_chi2(t_best - h)
-    derivative = (m_plus - m_minus) / (2 * h) * model.weight
-    curvature = 2 * float(derivative @ derivative)
-    if not curvature > 0:
-        raise InputError(f"{window.source}: epoch {window.epoch}: the χ² has no minimum at the mid-time "
-                         "(no transit signal in the window?)")
-    white = float(np.sqrt(2.0 / curvature))
-    beta = 1.0
-    if correlated_noise:
-        n_tau = max(2, int(round(tau / cadence)))
-        sizes = sorted({int(round(max(2, n_tau / 2) * 4 ** (i / 4))) for i in range(5)})
-        beta = beta_factor((window.flux - best_model) / window.flux_err, np.ones(window.time.size), sizes)
-    return MidTime(window.epoch, t_best, white * beta, white, beta, chi2, int(window.time.size),
-                   model.evaluations, window.coverage, window.source)
-
-
-def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: int = 16, seed: int = 0,
-                  baseline_order: int = 1) -> tuple[float, float]:
-    """Slow reference: emcee over the mid-time and the baseline coefficients.
-
-    Returns the posterior median and standard deviation of the mid-time
-    (days), without β inflation.  Uniform priors.
-    """
-    import emcee
-
-    model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
-    fast = fit_mid_time(window, shape, baseline_order=baseline_order, correlated_noise=False)
-    k = baseline_order + 1
-    m0 = model.light_curve(fast.time)
-    coef0, *_ = np.linalg.lstsq((m0[:, None] * model.basis) * model.weight[:, None], model.flux * model.weight,
-                                rcond=None)
-
-    def log_prob(theta):
-        m = model.light_curve(theta[0])
-        r = (model.flux - (m[:, None] * model.basis) @ theta[1:]) * model.weight
-        return -0.5 * float(r @ r)
-
-    rng = np.random.default_rng(seed)
-    start = np.concatenate([[fast.time], coef0])
-    scale = np.concatenate([[fast.white_uncertainty], np.full(k, 1e-5)])
-    p0 = start + 0.1 * scale * rng.standard_normal((n_walkers, k + 1))
-    sampler = emcee.EnsembleSampler(n_walkers, k + 1, log_prob)
-    sampler.random_state = np.random.RandomState(seed).get_state()
-    sampler.run_mcmc(p0, n_steps, progress=False)
-    chain = sampler.get_chain(discard=n_steps // 3, flat=True)[:, 0]
-    return float(np.median(chain)), float(np.std(chain))
+    offset, at_bound = search_mid_time(model.chi2, window.predicted, half, tol)
+    t_best = float(window.predicted + offset)
+    chi2 = model.chi2(t_best)     # before the derivative: the kept model is t_best's
+    white, depth, depth_error, resid = _curvature_and_depth(model, t_best, max(tau / 10, 1e-6))
+    n_tau = max(2, int(round(tau / cadence)))
+    sizes = sorted({int(round(max(2, n_tau / 2) * 4 ** (i / 4))) for i in range(5)})
+    beta = beta_factor(resid / err, np.ones(window.time.size), sizes)
+    sigma = white * (beta if correlated_noise else 1.0)
+    at_prediction = None
+    if at_bound or not depth >= 5 * depth_error:   # no transit found: what is at the predicted time?
+        _, d, e, _ = _curvature_and_depth(model, window.predicted, max(tau / 10, 1e-6))
+        at_prediction = d / e if e > 0 else 0.0
+    return MidTime(window.epoch, t_best, sigma, white, beta, chi2, int(window.time.size), model.evaluations,
+                   window.coverage, window.source, depth, depth_error, bool(at_bound), source, error_scale,
+                   resid, at_prediction)

@@ -10,8 +10,8 @@ practice).  Times become BJD_TDB at the edge (:mod:`ttvkit.timing.standards`).
 
 Cleaning: NaN removal, normalisation by the median, iterative sigma
 clipping of outliers; every dropped point is counted and reported.  Each
-window around a predicted transit is classified ``full``, ``partial``
-(ingress or egress missing) or ``sparse``.
+window around a predicted transit is classified by what it covers in time
+(:func:`coverage`).
 """
 
 from __future__ import annotations
@@ -24,7 +24,7 @@ import numpy as np
 from ttvkit.errors import InputError, located
 from ttvkit.timing.standards import to_bjd_tdb
 
-__all__ = ["LightCurve", "Window", "read_light_curve", "cut_windows", "PRESETS"]
+__all__ = ["LightCurve", "Window", "read_light_curve", "cut_windows", "coverage", "PRESETS"]
 
 #: Mission layouts: column names and where the time offset lives.
 PRESETS = {
@@ -48,6 +48,9 @@ class LightCurve:
         Integration time of one point (days); 0 if unknown.
     dropped : dict
         Counts of points removed: ``nan``, ``quality``, ``clipped``.
+    span : (float, float), optional
+        First and last time in the file, rows later dropped included (BJD_TDB):
+        a transit inside the span with no points left fell into a gap.
     """
 
     time: np.ndarray
@@ -56,6 +59,7 @@ class LightCurve:
     source: str
     exposure_time: float = 0.0
     dropped: dict = field(default_factory=dict)
+    span: tuple | None = None
 
     @property
     def cadence(self) -> float:
@@ -125,6 +129,36 @@ def read_light_curve(path, standard: str | None = None, columns: dict | None = N
         raise InputError(f"unknown preset {preset!r}; known presets: {', '.join(PRESETS)}")
     names = dict(PRESETS[preset]) if preset else {}
     names.update(columns or {})
+    raw, names, offset = _read_columns(path, names, preset, hdu)
+    if "mag" in str(names["flux"]).lower():
+        raise InputError(located("this column looks like magnitudes; ttvkit times fluxes: convert "
+                                 "(flux = 10**(-0.4 mag)) or choose a flux column", path, None, names["flux"]))
+    t, f, e, dropped = _usable_rows(raw, names, path)
+    std = standard or "BJD_TDB"
+    if offset:
+        from ttvkit.timing.standards import parse_standard
+
+        std = parse_standard(std).name.split("-")[0].split("+")[0]
+    finite_t = raw["time"][np.isfinite(raw["time"])]
+    ends = np.array([finite_t.min(), finite_t.max()]) + offset
+    t = t + offset
+    if std != "BJD_TDB":
+        t, ends = to_bjd_tdb(t, std, target, observer), to_bjd_tdb(ends, std, target, observer)
+    median = float(np.median(f))
+    if not median > 0:
+        raise InputError(located("the median flux is not positive; give a flux column, not magnitudes", path,
+                                 None, names["flux"]))
+    f, e = f / median, e / median
+    keep = _clip(f, clip_sigma)
+    dropped["clipped"] = int((~keep).sum())
+    t, f, e = t[keep], f[keep], e[keep]
+    cadence = float(np.median(np.diff(t))) if t.size > 1 else 0.0
+    return LightCurve(t, f, e, path.name, exposure_time if exposure_time is not None else cadence, dropped,
+                      (float(ends[0]), float(ends[1])))
+
+
+def _read_columns(path: Path, names: dict, preset, hdu: int):
+    """The raw columns (time, flux, flux_err, quality) of a FITS or text table, and the time offset."""
     offset = 0.0
     if path.suffix.lower() in (".fits", ".fit", ".fz") or _starts_with(path, b"SIMPLE"):
         cols, header = _fits_columns(path, hdu)
@@ -160,6 +194,11 @@ def read_light_curve(path, standard: str | None = None, columns: dict | None = N
         if raw.get(k) is None:
             raise InputError(located(f"missing column '{names.get(k, k)}'; the file has: "
                                      f"{', '.join(missing_from)}; choose columns or a preset", path))
+    return raw, names, offset
+
+
+def _usable_rows(raw: dict, names: dict, path: Path):
+    """Rows with finite time, flux and error and no quality flag; positive errors, increasing times."""
     t, f, e = raw["time"], raw["flux"], raw["flux_err"]
     dropped = {"nan": 0, "quality": 0, "clipped": 0}
     keep = np.ones(t.size, bool)
@@ -179,32 +218,20 @@ def read_light_curve(path, standard: str | None = None, columns: dict | None = N
     if np.any(np.diff(t) <= 0):
         raise InputError(located("times are not strictly increasing (sort the file, remove duplicates)",
                                  path, int(np.flatnonzero(np.diff(t) <= 0)[0]) + 2, names["time"]))
-    std = standard or "BJD_TDB"
-    if offset:
-        from ttvkit.timing.standards import parse_standard
+    return t, f, e, dropped
 
-        base = parse_standard(std)
-        t = t + offset
-        std = base.name.split("-")[0].split("+")[0]
-    t = to_bjd_tdb(t, std, target, observer) if std != "BJD_TDB" else t
-    median = float(np.median(f))
-    if not median > 0:
-        raise InputError(located("the median flux is not positive; give a flux column, not magnitudes", path,
-                                 None, names["flux"]))
-    f, e = f / median, e / median
-    keep = np.ones(t.size, bool)
-    for _ in range(5):  # iterative clipping against a running median (robust to the transits)
-        smooth = _running_median(f, 31)
-        resid = f - smooth
+
+def _clip(f: np.ndarray, clip_sigma: float) -> np.ndarray:
+    """Iterative clipping against a running median (robust to the transits): the points kept."""
+    keep = np.ones(f.size, bool)
+    for _ in range(5):
+        resid = f - _running_median(f, 31)
         scale = 1.4826 * np.median(np.abs(resid[keep] - np.median(resid[keep])))
         new = np.abs(resid) < clip_sigma * max(scale, 1e-12)
         if np.array_equal(new, keep):
             break
         keep = new
-    dropped["clipped"] = int((~keep).sum())
-    t, f, e = t[keep], f[keep], e[keep]
-    cadence = float(np.median(np.diff(t))) if t.size > 1 else 0.0
-    return LightCurve(t, f, e, path.name, exposure_time if exposure_time is not None else cadence, dropped)
+    return keep
 
 
 def _starts_with(path: Path, magic: bytes) -> bool:
@@ -230,9 +257,9 @@ def _running_median(x: np.ndarray, size: int) -> np.ndarray:
     return median_filter(x, size=min(size, max(1, x.size | 1)), mode="nearest")
 
 
-def cut_windows(lc: LightCurve, ephemeris, duration: float, ingress: float, half_width: float | None = None,
-                min_points: int = 10) -> list[Window]:
-    """One window per predicted transit that has data.
+def cut_windows(lc: LightCurve, ephemeris, duration: float, ingress: float,
+                half_width: float | None = None) -> list[Window]:
+    """One window per predicted transit inside the light curve's span.
 
     Parameters
     ----------
@@ -245,37 +272,68 @@ def cut_windows(lc: LightCurve, ephemeris, duration: float, ingress: float, half
         Ingress duration τ (days).
     half_width : float, optional
         Half-width of the window (default 1.5 × T14).
-    min_points : int
-        Fewer in-transit points than this: ``sparse``.
 
     Returns
     -------
     list of Window
-        Classified ``full`` (both ingress and egress and some baseline on
-        both sides covered), ``partial`` or ``sparse``.
+        Classified by :func:`coverage` (``full``, ``partial``, ``no ingress
+        or egress``, ``no points in transit``); a predicted transit inside
+        the file's span with no points left (a gap, NaN rows) is a window
+        with no points, ``no data``.
     """
     half = half_width if half_width is not None else 1.5 * duration
-    first = int(np.ceil((lc.time[0] - half - ephemeris.reference_time) / ephemeris.period))
-    last = int(np.floor((lc.time[-1] + half - ephemeris.reference_time) / ephemeris.period))
+    start, end = lc.span if lc.span is not None else (lc.time[0], lc.time[-1])
+    first = int(np.ceil((start - half - ephemeris.reference_time) / ephemeris.period))
+    last = int(np.floor((end + half - ephemeris.reference_time) / ephemeris.period))
+    reach = 0.5 * max(lc.cadence, lc.exposure_time)
     out = []
-    gap = max(3 * lc.cadence, ingress)
     for epoch in range(first, last + 1):
         mid = ephemeris.reference_time + epoch * ephemeris.period
         lo, hi = np.searchsorted(lc.time, [mid - half, mid + half])
-        if hi - lo == 0:
-            continue
+        if hi == lo and not start <= mid <= end:
+            continue        # beyond the ends of the file: not in this light curve
         t = lc.time[lo:hi]
-        in_transit = np.abs(t - mid) < duration / 2
-        edges = [mid - duration / 2, mid + duration / 2]
-        covered = all(np.any(np.abs(t - x) < gap) for x in edges)
-        before = np.any(t < mid - duration / 2 - ingress)
-        after = np.any(t > mid + duration / 2 + ingress)
-        if in_transit.sum() < min_points:
-            coverage = "sparse"
-        elif covered and before and after:
-            coverage = "full"
-        else:
-            coverage = "partial"
-        out.append(Window(epoch, mid, t, lc.flux[lo:hi], lc.flux_err[lo:hi], coverage, lc.source,
-                          lc.exposure_time))
+        label = coverage(t - mid, duration, ingress, reach) if hi > lo else "no data"
+        out.append(Window(epoch, mid, t, lc.flux[lo:hi], lc.flux_err[lo:hi], label, lc.source, lc.exposure_time))
     return out
+
+
+#: Fraction of the ingress (egress) that must be sampled for it to count as covered (common practice, no source).
+COVERED_FRACTION = 0.5
+
+
+def coverage(dt: np.ndarray, duration: float, ingress: float, reach: float) -> str:
+    """Classify a window by what its points cover in time (not by how many there are).
+
+    A point samples the instants within ``reach`` (half its cadence or
+    exposure, whichever is longer) of its time.  Ingress (egress) is covered
+    when at least :data:`COVERED_FRACTION` of it is sampled; ``full`` needs
+    both plus baseline before and after, ``partial`` one of them.
+
+    Parameters
+    ----------
+    dt : ndarray
+        Times relative to the predicted mid-time (days), sorted.
+    duration, ingress, reach : float
+        T14, τ and the sampling reach (days).
+    """
+    if dt.size == 0:
+        return "no data"
+    centre = 0.5 * (duration - ingress)
+    probe = np.linspace(-0.5, 0.5, 21) * ingress
+
+    def sampled(x):
+        i = np.clip(np.searchsorted(dt, x), 1, dt.size - 1) if dt.size > 1 else np.zeros(x.size, int)
+        nearest = np.minimum(np.abs(dt[i] - x), np.abs(dt[i - 1] - x)) if dt.size > 1 else np.abs(dt[0] - x)
+        return float(np.mean(nearest <= reach + 1e-12)) >= COVERED_FRACTION
+
+    ing, egr = sampled(probe - centre), sampled(probe + centre)
+    before = np.any(dt < -duration / 2 - ingress / 2)
+    after = np.any(dt > duration / 2 + ingress / 2)
+    if ing and egr and before and after:
+        return "full"
+    if ing or egr:
+        return "partial"
+    if np.any(np.abs(dt) < duration / 2):
+        return "no ingress or egress"
+    return "no points in transit"

@@ -27,6 +27,7 @@ from ttvkit.diagnosis.verdicts import (
     PLAUSIBLE,
     UNTESTED,
     VERDICTS,
+    bic_gain,
     decide,
     statistical_standing,
 )
@@ -156,21 +157,6 @@ def timing_context(system) -> HostContext:
     return HostContext.from_system(system)
 
 
-def _term_keys(fit) -> frozenset:
-    h = fit.hypothesis
-    keys = [t.key for t in (h.ephemeris,) + tuple(h.terms)]
-    return frozenset(k for k in keys if k != "constant-period")
-
-
-def _gain(fit, comparison) -> float | None:
-    """Lowest BIC improvement of ``fit`` over the fits nested in it (None for the constant period)."""
-    keys = _term_keys(fit)
-    if not keys:
-        return None
-    nested = [g.bic for g in comparison.fits if _term_keys(g) < keys]
-    return float(min(nested) - fit.bic) if nested else None
-
-
 def _assess(fit, comparison, system) -> Assessment:
     delta_bic = comparison.delta_bic(fit)
     checks = checks_for(fit, system)
@@ -179,7 +165,7 @@ def _assess(fit, comparison, system) -> Assessment:
     physical = ("excluded" if fails else "in tension" if any(c.outcome == "tension" for c in decisive)
                 else "untested" if any(c.outcome == "untested" for c in decisive) else "possible")
     validity = fit.hypothesis.validity(fit.model_theta(), fit.data)
-    gain = _gain(fit, comparison)
+    gain = bic_gain(fit, comparison)
     verdict, reason = decide(fit.name, delta_bic, gain, validity, checks)
     return Assessment(fit.name, fit, float(delta_bic), statistical_standing(delta_bic), checks, physical,
                       verdict, reason, validity, gain)

@@ -30,7 +30,7 @@ from __future__ import annotations
 
 __all__ = ["VERDICTS", "NEEDED", "SUFFICIENT", "OUTSIDE_VALIDITY", "DISFAVOURED", "NOT_NEEDED",
            "EXCLUDED", "IN_TENSION", "UNTESTED", "PLAUSIBLE", "REJECT_DELTA_BIC", "NEEDED_DELTA_BIC",
-           "statistical_standing", "decide"]
+           "statistical_standing", "decide", "bic_gain"]
 
 SUFFICIENT = "sufficient"
 OUTSIDE_VALIDITY = "outside its validity"
@@ -73,6 +73,26 @@ def statistical_standing(delta_bic: float) -> str:
     return "very strong evidence against"
 
 
+def _term_keys(fit) -> frozenset:
+    h = fit.hypothesis
+    keys = [t.key for t in (h.ephemeris,) + tuple(h.terms)]
+    return frozenset(k for k in keys if k != "constant-period")
+
+
+def bic_gain(fit, comparison) -> float | None:
+    """Lowest BIC improvement of ``fit`` over the fits of ``comparison`` nested in it.
+
+    A fit is nested in another when its terms are a proper subset of the
+    other's (the constant period is nested in everything).  None for the
+    constant period itself, or when nothing nested was fitted.
+    """
+    keys = _term_keys(fit)
+    if not keys:
+        return None
+    nested = [g.bic for g in comparison.fits if _term_keys(g) < keys]
+    return float(min(nested) - fit.bic) if nested else None
+
+
 def decide(name: str, delta_bic: float, gain: float | None, validity: list, checks: list) -> tuple[str, str]:
     """The verdict and its reason for one hypothesis.
 
@@ -83,13 +103,13 @@ def decide(name: str, delta_bic: float, gain: float | None, validity: list, chec
         BIC minus the lowest BIC of the comparison.
     gain : float or None
         Lowest BIC improvement over the simpler hypotheses nested in this one
-        (None for the constant period itself).
+        (None for the constant period itself; :func:`bic_gain`).
     validity : list of str
         Reasons the fit lies outside a term's validity domain.
     checks : list of Check
         Its physical checks.
     """
-    if gain is None:
+    if name == "constant-period":
         if delta_bic > REJECT_DELTA_BIC:
             return DISFAVOURED, f"ΔBIC = {delta_bic:.1f}: the mid-times drift from a constant period"
         return SUFFICIENT, f"ΔBIC = {delta_bic:.1f}"
@@ -97,8 +117,9 @@ def decide(name: str, delta_bic: float, gain: float | None, validity: list, chec
         return OUTSIDE_VALIDITY, "; ".join(validity)
     if delta_bic > REJECT_DELTA_BIC:
         return DISFAVOURED, f"ΔBIC = {delta_bic:.1f} ({statistical_standing(delta_bic)})"
-    if gain < NEEDED_DELTA_BIC:
-        return NOT_NEEDED, f"it lowers the BIC by only {gain:.1f} over the simpler hypotheses nested in it"
+    if gain is None or gain < NEEDED_DELTA_BIC:   # nothing nested to compare with: not shown needed
+        return NOT_NEEDED, ("no simpler hypothesis nested in it was fitted" if gain is None else
+                            f"it lowers the BIC by only {gain:.1f} over the simpler hypotheses nested in it")
     decisive = [c for c in checks if c.decisive]
     for outcome, verdict in (("fail", EXCLUDED), ("tension", IN_TENSION), ("untested", UNTESTED)):
         hit = [c for c in decisive if c.outcome == outcome]

@@ -32,10 +32,10 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from ttvkit.constants import DAY_S, YEAR_D
 from ttvkit.diagnosis.verdicts import NEEDED, bic_gain, decide
 from ttvkit.errors import InputError
 from ttvkit.hypotheses import TimingData, get_hypothesis
+from ttvkit.hypotheses.ephemerides import MS_PER_YR_PER_S_PER_S
 from ttvkit.inference.fitting import compare
 
 __all__ = ["CalibrationOptions", "Calibration", "calibrate", "CALIBRATION_HYPOTHESES", "detectability"]
@@ -232,9 +232,9 @@ def calibrate(table, options: CalibrationOptions | None = None, *, executor=None
             for _ in range(options.n_per_amplitude):
                 # decay is injected as shrinking (dP/dE < 0); its truth in ms/yr for the coverage
                 value = -amp * sigma if name == "orbital-decay" else amp * sigma
-                rate = value / base[1] * DAY_S * 1e3 * YEAR_D / 1.0 if name == "orbital-decay" else 0.0
+                rate = value / base[1] * MS_PER_YR_PER_S_PER_S if name == "orbital-decay" else 0.0
                 jobs.append((data, base, name, value, hypotheses, options.likelihood, options.error_scale,
-                             int(rng.integers(2 ** 63)), rate / DAY_S))
+                             int(rng.integers(2 ** 63)), rate))
                 labels.append((name, amp))
     own = executor is None
     if own:

@@ -302,7 +302,12 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
         pass
     forecast = make_forecast(standing or [comparison.best], ref, table, options.forecast_years,
                              options.timing_precision_s, duration, table.target, now=options.now)
-    diagnosis = Diagnosis(table, system, assessments, residual_periodogram(data), forecast, suspicions, notes,
+    periodogram = residual_periodogram(data)
+    if periodogram.best_beyond_baseline:
+        notes.append({"kind": "periodogram", "message": (
+            f"the periodogram's highest peak ({periodogram.best_period / 365.25:.3g} yr) is longer than the "
+            f"{periodogram.baseline / 365.25:.3g}-yr baseline: it marks a trend (curvature), not a measured period")})
+    diagnosis = Diagnosis(table, system, assessments, periodogram, forecast, suspicions, notes,
                           settings=options.describe())
     if pmap is not None:
         diagnosis.perturbers = pmap

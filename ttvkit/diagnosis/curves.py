@@ -1,7 +1,7 @@
 """The arrays the report's figures draw, computed once here (the report computes nothing).
 
 The O−C panel draws every hypothesis that stands and, always, the
-best-fitting one (its verdict is recorded in ``curves["verdicts"]`` so the
+best-fitting one (its verdict is recorded in ``curves["marked"]`` so the
 figure can mark it when it is excluded or outside its validity).
 """
 
@@ -47,7 +47,7 @@ def figure_curves(diagnosis) -> dict:
         shown.append(best)
     if lead not in shown:
         shown.append(lead)
-    out["verdicts"] = {a.name: a.verdict for a in shown}
+    out["marked"] = {a.name: a.verdict for a in shown if not a.stands}
     for a in shown:
         med, lo, hi = prediction_band(a.fit, gdata)
         out["models"][a.name] = ((med - ref_line) * DAY_S, (lo - ref_line) * DAY_S, (hi - ref_line) * DAY_S)

@@ -17,7 +17,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.stats import norm
 
-__all__ = ["posterior_draws", "tension_sigma", "FAIL_SIGMA", "TENSION_SIGMA", "DRAWS"]
+__all__ = ["posterior_draws", "tension_sigma", "probability_below", "FAIL_SIGMA", "TENSION_SIGMA", "DRAWS"]
 
 #: Tension (σ) at which an impossible-type check fails, and an unusual-type check is in tension
 #: (3σ: common practice, no source).
@@ -46,3 +46,26 @@ def tension_sigma(p_allowed: float) -> float:
     """Two-sided Gaussian-equivalent tension of a probability that the physics allows the value."""
     p = float(np.clip(p_allowed, 1e-15, 1.0))
     return float(max(0.0, norm.isf(p / 2)))
+
+
+def probability_below(values, limit: float, log: bool = False) -> float:
+    """P(value ≤ limit) from Monte Carlo draws.
+
+    The fraction of draws, except in the far tails: when fewer than 5 draws
+    fall on one side the fraction cannot resolve the tail (it would read 0
+    and overstate the tension), so a normal distribution fitted to the draws
+    (to their logarithm when ``log``, for positive quantities spread over
+    decades) gives the probability instead.
+    """
+    v = np.asarray(values, float)
+    v = v[np.isfinite(v)]
+    if v.size == 0:
+        return float("nan")
+    below = int(np.sum(v <= limit))
+    if 5 <= below <= v.size - 5:
+        return below / v.size
+    x, edge = (np.log(v[v > 0]), np.log(limit)) if log and limit > 0 else (v, limit)
+    spread = float(np.std(x))
+    if x.size < 2 or spread == 0:
+        return below / v.size
+    return float(norm.cdf((edge - float(np.mean(x))) / spread))

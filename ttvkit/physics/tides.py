@@ -127,13 +127,17 @@ class QualityFactorRange:
 #: 2012, ApJ 757, 6) wants 10^6–10^8; tidal-period-dependent fits (Penev et
 #: al. 2018, AJ 155, 165) span 10^5–10^7; an evolved or F-type host may sit
 #: at 10^5 (WASP-12: Yee et al. 2020; Weinberg et al. 2017, ApJL 849, L11).
+#: The ``source`` strings are what a report prints (author, year, journal); that the ranges are
+#: recalled, not re-read, is stated here and in the documentation.  A measured Q'_* outside them is
+#: reported as a tension, never excluded (diagnosis.checks).
 QUALITY_FACTOR_RANGES = (
     QualityFactorRange("solar-type dwarf (Teff < 6100 K)", 5.0, 8.5,
-                       "Meibom & Mathieu 2005; Hansen 2012; Penev et al. 2018 (memory)"),
+                       "Meibom & Mathieu 2005, ApJ 620, 970; Hansen 2012, ApJ 757, 6; "
+                       "Penev et al. 2018, AJ 155, 165"),
     QualityFactorRange("F-type dwarf (Teff >= 6100 K)", 5.5, 9.0,
-                       "Hansen 2012; Penev et al. 2018 (memory)"),
+                       "Hansen 2012, ApJ 757, 6; Penev et al. 2018, AJ 155, 165"),
     QualityFactorRange("subgiant", 4.5, 7.0,
-                       "Weinberg et al. 2017; Yee et al. 2020 (memory)"),
+                       "Weinberg et al. 2017, ApJL 849, L11; Yee et al. 2020, ApJL 888, L5"),
 )
 
 

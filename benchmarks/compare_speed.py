@@ -24,7 +24,7 @@ from simulate import simulate  # noqa: E402
 from ttvkit.inference import compare  # noqa: E402
 
 
-def run(n_epochs: int) -> float:
+def run(n_epochs: int) -> tuple[float, int, int]:
     theta = [0.0, 2.0, 45 / 86400, -20 / 86400, 3300.0]
     table = simulate("sinusoidal-modulation", theta, np.random.default_rng(42), n=n_epochs,
                      span_epochs=max(4000, 2 * n_epochs))
@@ -33,11 +33,13 @@ def run(n_epochs: int) -> float:
         warnings.simplefilter("ignore")
         result = compare(table, sampled=True, n_steps=3000, seed=1, progress=False)
     elapsed = time.perf_counter() - start
-    print(f"  {n_epochs} epochs: {elapsed:.1f} s; best {result.best.name}")
-    return elapsed
+    converged = sum(bool(f.sampling and f.sampling.get("converged")) for f in result.fits)
+    print(f"  {n_epochs} epochs: {elapsed:.1f} s; best {result.best.name}; converged {converged}/{len(result.fits)}")
+    return elapsed, converged, len(result.fits)
 
 
 if __name__ == "__main__":
-    small = run(200)
-    large = run(2000)
-    print(f"compare: 200 epochs in {small:.1f} s; 2000/200 epochs cost ratio {large / small:.1f}")
+    small, ok, total = run(200)
+    large, _, _ = run(2000)
+    print(f"compare: 200 epochs in {small:.1f} s; 2000/200 epochs cost ratio {large / small:.1f}; "
+          f"converged {ok}/{total}")

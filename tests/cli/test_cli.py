@@ -141,8 +141,8 @@ def test_demo_runs_the_whole_path(tmp_path, capsys):
     assert [w["source"] for w in summary["warnings"]] == ["Meridian 1.2-m photometry"]
     # the demo's star (slow rotator, quiet RVs) cannot host the activity or
     # companion explanations of its modulation
-    assert summary["verdicts"]["sinusoidal-modulation"] == "excluded by physics"
-    assert summary["verdicts"]["light-travel-time"] == "excluded by physics"
+    assert summary["verdicts"]["sinusoidal-modulation"] == "physically excluded"
+    assert summary["verdicts"]["light-travel-time"] == "physically excluded"
 
 
 def test_diagnose_errors_are_one_line(tmp_path, demo_inputs, capsys):

@@ -32,19 +32,20 @@ def test_modulation_the_star_can_power():
     d = run(table, BINARY, ["sinusoidal-modulation"])
     a = d["sinusoidal-modulation"]
     assert a.physical == "possible"
-    assert a.verdict == "stands"
+    assert a.verdict == "needed and plausible"
     assert d["constant-period"].verdict == "disfavoured by the data"
+    assert "sinusoidal-modulation" in d.summary()
 
 
 def test_same_modulation_on_a_faint_star_is_excluded():
     faint = k_dwarf_binary(teff=None, luminosity=1e-4 * u.Lsun)
     table = simulate("sinusoidal-modulation", MODULATION, np.random.default_rng(31), sigma_s=3.0)
     a = run(table, faint, ["sinusoidal-modulation"])["sinusoidal-modulation"]
-    assert a.verdict == "excluded by physics"
+    assert a.verdict == "physically excluded"
     assert "cannot power" in a.reason
 
 
-def test_decay_with_a_plausible_quality_factor_stands():
+def test_decay_with_a_plausible_quality_factor_is_needed_and_plausible():
     # Q'_* = 1e6 (inside the documented range for a solar-type host) -> dP/dt
     # from the Goldreich & Soter form; the fit must recover a plausible Q'_*.
     host = System(Star(mass=1 * u.Msun, radius=1.2 * u.Rsun, teff=5800 * u.K),
@@ -53,7 +54,7 @@ def test_decay_with_a_plausible_quality_factor_stands():
     table = simulate("orbital-decay", [0.0, 2.0, rate * 2.0], np.random.default_rng(32))
     d = run(table, host, ["orbital-decay", "sinusoidal-modulation"])
     a = d["orbital-decay"]
-    assert a.verdict == "stands"
+    assert a.verdict == "needed and plausible"
     q = [c for c in a.checks if c.name.startswith("tidal quality")][0]
     assert q.outcome == "pass"
     assert 10 ** 5.5 < q.value < 10 ** 6.5  # recovered Q' within half a dex of the truth
@@ -64,7 +65,7 @@ def test_light_time_companion_seen_in_rvs_is_excluded():
     system = sun_and_jupiter(2.0, rv_baseline_yr=10.0, rv_rms=5.0)
     table = simulate("light-travel-time", [0.0, 2.0, 80 / 86400, 4000.0, 0.3, 0.2, 1.0], np.random.default_rng(33))
     a = run(table, system, ["light-travel-time"])["light-travel-time"]
-    assert a.verdict == "excluded by physics"
+    assert a.verdict == "physically excluded"
     rv = [c for c in a.checks if c.name == "radial-velocity visibility"][0]
     assert rv.outcome == "fail" and rv.value > 100
 
@@ -114,3 +115,12 @@ def test_interrupted_report_leaves_nothing(tmp_path, monkeypatch):
     report_module.write_report(d, tmp_path / "out")
     report_module.write_report(d, tmp_path / "out", force=True)  # its own earlier report is replaced
     assert (tmp_path / "out" / "report.html").exists()
+
+
+def test_schema_lists_exactly_the_verdict_vocabulary():
+    # the JSON schema and the one verdict module must agree word for word
+    from ttvkit.diagnosis.verdicts import VERDICTS
+
+    schema = json.loads(resources.files("ttvkit").joinpath("report/schemas/diagnosis.schema.json").read_text())
+    enum = schema["$defs"]["hypothesis"]["properties"]["verdict"]["enum"]
+    assert sorted(enum) == sorted(VERDICTS)

@@ -173,7 +173,7 @@ def test_diagnose_fits_it_when_asked_and_judges_its_physics(tmp_path, capsys):
     d = diagnose(table, quiet_rvs, hypotheses=["constant-period"], sampled=False, progress=False,
                  now=T_START + 600, fit_perturber=True)
     a = d["n-body-perturber"]
-    assert a.verdict == "stands"           # 20 Earth masses at 2.05x: Hill stable, 2K = 14 m/s < 3 x 6 m/s
+    assert a.verdict == "needed and plausible"   # 20 Earth masses at 2.05x: Hill stable, 2K = 14 m/s < 3 x 6 m/s
     checks = {c.name: c for c in a.checks}
     assert checks["Hill stability"].outcome == "pass"
     assert checks["radial-velocity visibility"].outcome == "pass"

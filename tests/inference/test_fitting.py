@@ -173,3 +173,15 @@ def test_fit_command_json(tmp_path, capsys):
     assert bics == sorted(bics)
     assert main(["fit", str(path), "--hypothesis", "wobble"]) == 2
     assert "unknown hypothesis" in capsys.readouterr().err
+
+
+def test_periodogram_flags_a_peak_beyond_the_baseline():
+    # a 60-yr modulation on ~22 yr of data (4000 epochs of 2 d): the highest peak sits beyond the
+    # span and must be flagged as a trend (the 70.9-yr peak on 14 yr); a 3000-d one must not
+    table = simulate("sinusoidal-modulation", [0.0, 2.0, 300 / 86400, 0.0, 60 * 365.25], np.random.default_rng(8))
+    pg = residual_periodogram(table)
+    assert pg.best_period > pg.baseline and pg.best_beyond_baseline
+    assert pg.to_dict()["best_beyond_baseline"] is True
+    inside = residual_periodogram(simulate("sinusoidal-modulation", CASES["sinusoidal-modulation"][0],
+                                           np.random.default_rng(3)))
+    assert not inside.best_beyond_baseline

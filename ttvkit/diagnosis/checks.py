@@ -7,21 +7,26 @@ the reason in words.  A check whose inputs are missing from the system is
 ``untested`` and says what is missing.  ``decisive`` checks can exclude a
 hypothesis; the others are notes for the reader.
 
-The rules (ours; each is a plausibility screen, not a proof):
+Each decisive check is graded (:mod:`ttvkit.diagnosis.grading`): the fit's
+posterior and the system's stated uncertainties are propagated by Monte
+Carlo into a probability that the physics allows the value, and a tension
+in σ.  The rules (ours; each is a plausibility screen, not a proof):
 
-* **modulation** — excluded when even the more lenient of the thin- and
+* **modulation** — fails (impossible) when the more lenient of the thin- and
   finite-shell Applegate models needs more energy than the star radiates
-  over one modulation period, or predicts a luminosity change larger than
-  the star's observed variability;
-* **decay** — excluded when the period grows by more than 2σ (tides of a
-  star spinning slower than the orbit only shrink it), or when even the
-  slowest decay within 2σ needs a Q'_* below the documented range;
-* **precession** — excluded when the eccentricity exceeds the system's
-  limit, or the rate exceeds 3× the GR + tidal expectation (Love numbers are
-  uncertain by about that factor) beyond 3σ;
-* **light-travel time** — excluded when the companion's RV signal would
+  over one modulation period at ≥ 3σ, or predicts a luminosity change larger
+  than the star's observed variability;
+* **decay** — fails when the period grows at ≥ 3σ (tides of a star spinning
+  slower than the orbit only shrink it) or when Q'_* lies below the physical
+  floor Q'_* ≥ 1 (:data:`~ttvkit.physics.tides.QUALITY_FACTOR_FLOOR`); a
+  Q'_* outside the range from the lowest measured value (WASP-12) to the top
+  of the population range is **in tension** — unusual, never excluded;
+* **precession** — fails when the eccentricity exceeds the system's limit or
+  its measured value at ≥ 3σ, or the rate exceeds 3× the GR + tidal
+  expectation (Love numbers are uncertain by about that factor) at ≥ 3σ;
+* **light-travel time** — fails when the companion's RV signal would
   already have been seen (:func:`~ttvkit.physics.companions.light_time_companion`);
-* **near-resonant perturber** — excluded when the two orbits are not Hill
+* **near-resonant perturber** — fails when the two orbits are not Hill
   stable (Gladman 1993) or the perturber's RV signal would have been seen.
 """
 
@@ -32,6 +37,14 @@ from dataclasses import asdict, dataclass
 import astropy.units as u
 import numpy as np
 
+from ttvkit.diagnosis.grading import (
+    DRAWS,
+    FAIL_SIGMA,
+    TENSION_SIGMA,
+    posterior_draws,
+    probability_below,
+    tension_sigma,
+)
 from ttvkit.errors import MissingValueError
 from ttvkit.hypotheses import (
     ApsidalPrecession,
@@ -51,13 +64,18 @@ from ttvkit.physics.companions import (
 )
 from ttvkit.physics.kepler import radial_velocity_semi_amplitude
 from ttvkit.physics.tides import (
+    QUALITY_FACTOR_FLOOR,
     general_relativity_precession,
+    measured_quality_factor_floor,
     plausible_quality_factor,
     quality_factor_from_decay_rate,
     tidal_precession,
 )
+from ttvkit.physics.uncertain import system_draws
 
 __all__ = ["Check", "checks_for", "CHECKS", "PHYSICAL_MODELS"]
+
+from ttvkit.diagnosis.models import PHYSICAL_MODELS  # noqa: E402  (re-exported: the report lists them)
 
 
 @dataclass(frozen=True)
@@ -68,9 +86,11 @@ class Check:
     value: float | None
     limit: float | None
     unit: str
-    outcome: str          # "pass", "fail", "note" or "untested"
+    outcome: str          # "pass", "tension", "fail", "note" or "untested"
     reason: str
     decisive: bool = True
+    tension: float | None = None       # σ, from the Monte Carlo probability (grading.tension_sigma)
+    probability: float | None = None   # that the physics allows the fitted value
 
     def to_dict(self) -> dict:
         """Plain-JSON form."""
@@ -81,14 +101,25 @@ def _untested(name: str, exc: Exception) -> Check:
     return Check(name, None, None, "", "untested", f"not tested: {exc}", True)
 
 
+def _systems(system, count: int = DRAWS):
+    return system_draws(system, count, seed=1)
+
+
 def modulation_checks(fit, system, term=None) -> list[Check]:
-    """Applegate energy budget, luminosity change and activity cycle."""
+    """Applegate energy budget (graded over the posterior and the star's uncertainties), ΔL/L, cycle."""
     amp = fit.estimate("semi_amplitude").value * u.s
     p_mod = fit.estimate("modulation_period_yr").value * u.yr
     try:
         budgets = activity_budgets(system, amp, p_mod)
     except MissingValueError as exc:
         return [_untested("activity energy budget", exc)]
+    count = 100     # each draw solves the finite-shell minimisation (~4 ms)
+    amps = posterior_draws(fit, "semi_amplitude", count)
+    periods = posterior_draws(fit, "modulation_period_yr", count)
+    ratios = np.array([min(b.energy_ratio for b in activity_budgets(s, a * u.s, q * u.yr).values())
+                       for s, a, q in zip(_systems(system, count), amps, periods)])
+    p_ok = probability_below(ratios, 1.0, log=True)
+    sigma = tension_sigma(p_ok)
     out = []
     for model, b in budgets.items():
         out.append(Check(f"energy ratio ({model})", b.energy_ratio, 1.0, "",
@@ -96,17 +127,19 @@ def modulation_checks(fit, system, term=None) -> list[Check]:
                          f"the {model} model needs {b.energy_ratio:.3g}× the energy the star radiates "
                          f"in one {p_mod:.3g} cycle ({b.structure}; spin: {b.spin_used})", False))
     lenient = min(budgets.values(), key=lambda b: b.energy_ratio)
-    ok = lenient.energy_ratio <= 1
-    out.append(Check("activity energy budget", lenient.energy_ratio, 1.0, "", "pass" if ok else "fail",
-                     (f"the star can power a {amp:.3g} O−C semi-amplitude over {p_mod:.3g} "
-                      f"(largest it can power: {lenient.max_amplitude:.3g}, {lenient.model} model)")
-                     if ok else
+    fails = sigma >= FAIL_SIGMA and lenient.energy_ratio > 1
+    spread = f"; P(the star can power it) = {p_ok:.3g} over the fit's and the star's uncertainties"
+    out.append(Check("activity energy budget", lenient.energy_ratio, 1.0, "", "fail" if fails else "pass",
                      (f"the star cannot power a {amp:.3g} O−C semi-amplitude over {p_mod:.3g}: even the "
                       f"{lenient.model} model needs {lenient.energy_ratio:.3g}× its output "
-                      f"(largest it can power: {lenient.max_amplitude:.3g})")))
+                      f"(largest it can power: {lenient.max_amplitude:.3g}){spread} ({sigma:.1f}σ)")
+                     if fails else
+                     (f"the star can power a {amp:.3g} O−C semi-amplitude over {p_mod:.3g} "
+                      f"(largest it can power: {lenient.max_amplitude:.3g}, {lenient.model} model){spread}"),
+                     tension=sigma, probability=p_ok))
     out.append(Check("differential rotation ΔΩ/Ω", lenient.delta_Omega_over_Omega, None, "", "note",
                      f"ΔΩ/Ω = {lenient.delta_Omega_over_Omega:.3g} ({lenient.model}); active stars show "
-                     "about 0.01 (Applegate 1992, from memory)", False))
+                     "about 0.01 (Applegate 1992)", False))
     variability = system.star.variability_amplitude
     if variability is not None:
         dl = lenient.delta_L_over_L
@@ -118,28 +151,24 @@ def modulation_checks(fit, system, term=None) -> list[Check]:
         rel = float(abs(p_mod - cycle) / cycle)
         out.append(Check("modulation period vs activity cycle", p_mod.to_value(u.yr), cycle.to_value(u.yr), "yr",
                          "note", f"P_mod = {p_mod:.3g} {'matches' if rel < 0.3 else 'differs from'} the "
-                         f"known activity cycle of {cycle:.3g} (within 30%: common practice, no source)", False))
+                         f"known activity cycle of {cycle:.3g} (within 30%)", False))
     return out
 
 
 def decay_checks(fit, system, term=None) -> list[Check]:
-    """Sign of dP/dt, Q'_* against the documented range, the Rømer alternative."""
-    rate, err = fit.estimate("dP_dt").value, max(fit.estimate("dP_dt").lower, fit.estimate("dP_dt").upper)
+    """Sign of dP/dt; Q'_* graded against measured values and populations; the Rømer alternative."""
+    est = fit.estimate("dP_dt")
+    rate = est.value
+    rates = posterior_draws(fit, "dP_dt")
     out = []
-    if rate > 2 * err:
+    p_shrinks = probability_below(rates, 0.0)
+    if rate > 0 and tension_sigma(p_shrinks) >= FAIL_SIGMA:
         out.append(Check("sign of dP/dt", rate, 0.0, "ms/yr", "fail",
-                         f"the period grows (dP/dt = {rate:+.3g} ± {err:.2g} ms/yr); tides of a star "
-                         "spinning slower than the orbit only shrink orbits"))
+                         f"the period grows (dP/dt = {rate:+.3g} −{est.lower:.2g}/+{est.upper:.2g} ms/yr; "
+                         f"P(shrinking) = {p_shrinks:.2g}); tides of a star spinning slower than the orbit "
+                         "only shrink orbits", tension=tension_sigma(p_shrinks), probability=p_shrinks))
     try:
-        q = quality_factor_from_decay_rate(system, rate * u.ms / u.yr)
-        slowest = max(abs(rate) - 2 * err, 1e-12)
-        q_weak = quality_factor_from_decay_rate(system, slowest * u.ms / u.yr)
-        band = plausible_quality_factor(system)
-        ok = q_weak >= 10 ** band.log10_low
-        out.append(Check("tidal quality factor Q'_*", q, 10 ** band.log10_low, "", "pass" if ok else "fail",
-                         f"Q'_* = {q:.3g} (≥ {q_weak:.3g} within 2σ) against the range "
-                         f"10^{band.log10_low:g}–10^{band.log10_high:g} for a {band.star_type} "
-                         f"({band.source})", rate < 0))
+        out.append(_quality_factor_check(fit, system, rates))
     except MissingValueError as exc:
         out.append(_untested("tidal quality factor Q'_*", exc))
     period = system.orbit.period
@@ -158,31 +187,82 @@ def decay_checks(fit, system, term=None) -> list[Check]:
     return out
 
 
+def _quality_factor_check(fit, system, rates) -> Check:
+    """Q'_* per draw (posterior × star), graded: below the physical floor fails; outside the
+    measured-to-population range is a tension, never an exclusion (shared/CHECKS.md)."""
+    q = quality_factor_from_decay_rate(system, fit.estimate("dP_dt").value * u.ms / u.yr)
+    shrinking = rates[rates < 0]
+    if shrinking.size == 0:
+        return Check("tidal quality factor Q'_*", q, None, "", "note",
+                     "no posterior draw has a shrinking period: Q'_* is not defined", False)
+    draws = np.array([quality_factor_from_decay_rate(s, r * u.ms / u.yr)
+                      for s, r in zip(_systems(system, shrinking.size), shrinking)])
+    band = plausible_quality_factor(system)
+    measured, source = measured_quality_factor_floor()
+    low = min(measured, 10 ** band.log10_low)
+    p_possible = 1.0 - probability_below(draws, QUALITY_FACTOR_FLOOR, log=True)
+    p_usual = max(0.0, 1.0 - probability_below(draws, low, log=True)
+                  - (1.0 - probability_below(draws, 10 ** band.log10_high, log=True)))
+    lo, hi = np.percentile(draws, [16, 84])
+    text = (f"Q'_* = {q:.3g} (68%: {lo:.3g}–{hi:.3g}); measured on real orbits down to {measured:.3g} "
+            f"({source}); populations suggest 10^{band.log10_low:g}–10^{band.log10_high:g} for a "
+            f"{band.star_type} ({band.source})")
+    if tension_sigma(p_possible) >= FAIL_SIGMA:
+        return Check("tidal quality factor Q'_*", q, QUALITY_FACTOR_FLOOR, "", "fail",
+                     text + f"; below the physical floor Q'_* ≥ {QUALITY_FACTOR_FLOOR:g}",
+                     tension=tension_sigma(p_possible), probability=p_possible)
+    sigma = tension_sigma(p_usual)
+    outcome = "tension" if sigma >= TENSION_SIGMA else "pass"
+    return Check("tidal quality factor Q'_*", q, low, "", outcome,
+                 text + (f"; outside that range at {sigma:.1f}σ (unusual, not excluded)" if outcome == "tension"
+                         else ""), tension=sigma, probability=p_usual)
+
+
 def precession_checks(fit, system, term=None) -> list[Check]:
-    """Eccentricity against the system's limit, rate against GR + tides."""
+    """Eccentricity against the system's limit or measurement; rate against GR + tides (graded)."""
+    e_draws = posterior_draws(fit, "eccentricity")
     e = fit.estimate("eccentricity").value
-    out = []
-    limit = system.orbit.eccentricity_limit
-    if limit is not None:
-        out.append(Check("eccentricity", e, limit, "", "pass" if e <= limit else "fail",
-                         f"the precession needs e = {e:.3g}; the system allows e ≤ {limit:.3g}"))
-    else:
-        out.append(Check("eccentricity", e, None, "", "untested",
-                         f"the precession needs e = {e:.3g}; the system file gives no eccentricity_limit", True))
-    rate = fit.estimate("domega_dt").value
-    err = max(fit.estimate("domega_dt").lower, fit.estimate("domega_dt").upper)
+    out = [_eccentricity_check(e, e_draws, system)]
+    rate = fit.estimate("domega_dt")
+    rates = posterior_draws(fit, "domega_dt")
     try:
         companion = system.companion.mass if system.companion.mass is not None else 0 * u.Msun
         total = system.star.need("mass", "the GR precession") + companion
         expected = (general_relativity_precession(total, system.semi_major_axis, e)
                     + tidal_precession(system)).to_value(u.deg / u.yr)
-        ok = rate - 3 * err <= 3 * expected
-        out.append(Check("precession rate", rate, expected, "deg/yr", "pass" if ok else "fail",
-                         f"fitted dω/dt = {rate:.3g} ± {err:.2g} deg/yr; GR + tidal bulges give "
-                         f"{expected:.3g} deg/yr" + ("" if ok else "; a faster rate needs another cause")))
+        # an upper-bound test: the half-width below the value is the one that matters
+        p_ok = probability_below(rates, 3 * expected)
+        sigma = tension_sigma(p_ok)
+        ok = sigma < FAIL_SIGMA
+        out.append(Check("precession rate", rate.value, expected, "deg/yr", "pass" if ok else "fail",
+                         f"fitted dω/dt = {rate.value:.3g} −{rate.lower:.2g}/+{rate.upper:.2g} deg/yr; GR + "
+                         f"tidal bulges give {expected:.3g} deg/yr (3× allowed for the Love numbers)"
+                         + ("" if ok else f"; faster at {sigma:.1f}σ: a faster rate needs another cause"),
+                         tension=sigma, probability=p_ok))
     except MissingValueError as exc:
         out.append(_untested("precession rate", exc))
     return out
+
+
+def _eccentricity_check(e, e_draws, system) -> Check:
+    limit = system.orbit.eccentricity_limit
+    measured_error = system.uncertainties.get("orbit.eccentricity")
+    if measured_error is not None:
+        measured = float(system.orbit.eccentricity or 0.0)
+        spread = np.hypot(np.std(e_draws), float(measured_error))
+        sigma = abs(e - measured) / spread if spread > 0 else float("inf")
+        return Check("eccentricity", e, measured, "", "fail" if sigma >= FAIL_SIGMA else "pass",
+                     f"the precession needs e = {e:.3g}; the orbit's measured e = {measured:.3g} ± "
+                     f"{float(measured_error):.2g} ({sigma:.1f}σ apart)", tension=float(sigma))
+    if limit is not None:
+        p_ok = probability_below(e_draws, limit)
+        sigma = tension_sigma(p_ok)
+        return Check("eccentricity", e, limit, "", "pass" if sigma < FAIL_SIGMA else "fail",
+                     f"the precession needs e = {e:.3g}; the system allows e ≤ {limit:.3g} "
+                     f"(P(e ≤ limit) = {p_ok:.2g})", tension=sigma, probability=p_ok)
+    return Check("eccentricity", e, None, "", "untested",
+                 f"the precession needs e = {e:.3g}; the system file gives neither an eccentricity with its "
+                 "uncertainty nor an eccentricity_limit", True)
 
 
 def light_time_checks(fit, system, term=None) -> list[Check]:
@@ -275,47 +355,3 @@ def checks_for(fit, system) -> list[Check]:
                 out += CHECKS[cls](fit, system, term)
                 break
     return out
-
-
-#: The physical model behind each Term's checks: (title, assumptions), as the report states them.
-PHYSICAL_MODELS = {
-    NBodyPerturber: (
-        "Perturbing planet (N-body fit)",
-        "The transiting planet and one more planet of fitted mass, period, eccentricity vector and mean "
-        "longitude, integrated directly (the same corrected Wisdom–Holman map); coplanar, edge-on orbits "
-        "of point masses; the transiting planet's eccentricity held at the System's; T0 and P are the "
-        "mean ephemeris (the integration's straight line over the data is removed). The fit starts from "
-        "the map's best points when the map is made, from near-resonant periods and from a coarse grid; "
-        "another mode may exist elsewhere in period. Hill stability after Gladman (1993) for circular "
-        "orbits."),
-    SinusoidalModulation: (
-        "Activity cycle (Applegate 1992)",
-        "An activity cycle moves angular momentum between the star's interior and an outer shell; the "
-        "shell's changed spin changes the star's quadrupole moment and so the orbital period. Core and "
-        "shell rotate rigidly; the quadrupole follows the shell's spin at once; the modulation is "
-        "sinusoidal; the whole luminosity is available over one cycle; the initial differential rotation "
-        "equals its change. The spin is the star's own when its rotation period is known, synchronous "
-        "otherwise. Thin shell: 0.1 M at the surface. Finite shell (in the manner of Völschow et al. "
-        "2016): a Lane–Emden polytrope (n = 1.5 below 0.5 M☉, else 3) with the energy minimised over the "
-        "shell thickness."),
-    OrbitalDecay: (
-        "Tidal decay (Goldreich & Soter 1966; Patra et al. 2017)",
-        "Constant-phase-lag tide raised on the star by a planet on a circular orbit; Q'_* constant; the "
-        "planet's own tide neglected. Plausible Q'_* ranges by star type are a documented table, recalled "
-        "from the cited studies."),
-    ApsidalPrecession: (
-        "Apsidal precession (Giménez & Bastero 1995)",
-        "A slightly eccentric orbit to first order in e; a constant precession rate; the rate expected "
-        "from general relativity and the tidal bulges (Ragozzine & Wolf 2009) with Love numbers k2 = 0.6 "
-        "(planet) and 0.03 (star), uncertain by a factor of a few."),
-    LightTravelTime: (
-        "Distant companion (Irwin 1952)",
-        "A Keplerian outer orbit of a point-mass pair; the light-travel time shifts all events alike. The "
-        "companion would already have been seen if its RV change over the baseline exceeds 3× the RV "
-        "scatter (common practice, no source)."),
-    NearResonantPerturber: (
-        "Near-resonant perturber (Lithwick, Xie & Wu 2012)",
-        "Coplanar, nearly circular orbits near (not in) a first-order resonance; the quoted mass assumes "
-        "zero free eccentricity (a free eccentricity trades against the mass). Hill stability after "
-        "Gladman (1993) for circular orbits."),
-}

@@ -1,15 +1,13 @@
 """The diagnosis: which explanations of a timing drift survive the data and the physics.
 
 :func:`diagnose` fits every hypothesis (and the sensible pairs), joins each
-fit with the physical checks of :mod:`ttvkit.diagnosis.checks`, gives each a
-statistical standing from ΔBIC (Kass & Raftery 1995, JASA 90, 773: 0–2 not
-worth more than a mention, 2–6 positive, 6–10 strong, > 10 very strong
-evidence against) and a physical standing, and says in words what remains.
-This is the only module that joins fits and physics.
+fit with the graded physical checks of :mod:`ttvkit.diagnosis.checks` and
+the validity domain of each term, and gives each a verdict by the rules of
+:mod:`ttvkit.diagnosis.verdicts` (the one place they live).  This is the
+only module that joins fits and physics.
 
-It is a **plausibility screen, not a proof**: a hypothesis that "stands"
-fits the data about as well as the best and passes every test the system
-file allows; it is not thereby the cause.
+It is a **plausibility screen, not a proof**: a hypothesis the data need
+that passes every test the system file allows is not thereby the cause.
 """
 
 from __future__ import annotations
@@ -21,38 +19,32 @@ from dataclasses import dataclass, field, replace
 import astropy.units as u
 import numpy as np
 
-from ttvkit.constants import DAY_S, YEAR_D
 from ttvkit.diagnosis.checks import checks_for
+from ttvkit.diagnosis.curves import figure_curves
 from ttvkit.diagnosis.forecast import Forecast, make_forecast
+from ttvkit.diagnosis.verdicts import (
+    DISFAVOURED,
+    EXCLUDED,
+    IN_TENSION,
+    PLAUSIBLE,
+    UNTESTED,
+    VERDICTS,
+    bic_gain,
+    decide,
+    statistical_standing,
+)
 from ttvkit.errors import InputError, MissingValueError
 from ttvkit.hypotheses import DEFAULT_COMPARISON, TimingData, get_hypothesis
 from ttvkit.hypotheses.base import HostContext
 from ttvkit.inference.fitting import compare
 from ttvkit.inference.periodogram import Periodogram, residual_periodogram
-from ttvkit.inference.predictions import prediction_band
 from ttvkit.inference.results import Comparison
-from ttvkit.physics.companions import rv_threshold_semi_amplitude
 
 __all__ = ["Assessment", "Diagnosis", "DiagnosisOptions", "diagnose", "timing_context", "CAUTION"]
 
-CAUTION = ("This verdict is a plausibility screen, not a proof. A hypothesis that stands fits the timings "
-           "about as well as the best one and passes every physical test the system file allows; it is "
-           "not thereby shown to be the cause, and the physical models are idealised (their assumptions "
-           "are listed below).")
-
-#: ΔBIC above which the data are taken to reject a hypothesis (Kass & Raftery 1995: very strong).
-REJECT_DELTA_BIC = 10.0
-
-
-def statistical_standing(delta_bic: float) -> str:
-    """Words for a ΔBIC (Kass & Raftery 1995)."""
-    if delta_bic <= 2:
-        return "best or as good as the best"
-    if delta_bic <= 6:
-        return "positive evidence against"
-    if delta_bic <= 10:
-        return "strong evidence against"
-    return "very strong evidence against"
+CAUTION = ("This verdict is a plausibility screen, not a proof. A hypothesis the data need that passes every "
+           "physical test the system file allows is not thereby shown to be the cause, and the physical "
+           "models are idealised (their assumptions are listed below).")
 
 
 @dataclass
@@ -67,11 +59,13 @@ class Assessment:
     physical: str
     verdict: str
     reason: str
+    validity: list = field(default_factory=list)
+    gain: float | None = None
 
     @property
     def stands(self) -> bool:
-        """True when neither the data nor the physics reject it."""
-        return self.verdict.startswith("stands")
+        """True when the data need it and the physics allows it (plausible, in tension or untested)."""
+        return self.verdict in (PLAUSIBLE, IN_TENSION, UNTESTED)
 
     def to_dict(self) -> dict:
         """Plain-JSON form."""
@@ -80,7 +74,9 @@ class Assessment:
                 "parameters": d["parameters"], "derived": d["derived"], "chi2": d["chi2"], "dof": d["dof"],
                 "bic": d["bic"], "aic": d["aic"], "n_points": d["n_points"], "sampled": d["sampled"],
                 "physical": {"standing": self.physical, "checks": [c.to_dict() for c in self.checks]},
-                "verdict": self.verdict, "reason": self.reason, "assumptions": d["assumptions"]}
+                "verdict": self.verdict, "verdict_meaning": VERDICTS[self.verdict], "reason": self.reason,
+                "validity": list(self.validity), "bic_gain_over_nested": self.gain,
+                "assumptions": d["assumptions"]}
 
 
 @dataclass
@@ -117,23 +113,21 @@ class Diagnosis:
         raise KeyError(name)
 
     def summary(self) -> str:
-        """The verdict in a few sentences."""
-        stand = [a.name for a in self.standing if a.name != "constant-period"]
+        """The verdict in a few sentences; only hypotheses the data need are named as explanations."""
+        ref = self["constant-period"]
         out = []
-        if self["constant-period"].delta_bic > REJECT_DELTA_BIC:
-            out.append(f"The mid-times drift from a constant period (ΔBIC = {self['constant-period'].delta_bic:.1f}).")
+        if ref.verdict == DISFAVOURED:
+            out.append(f"The mid-times drift from a constant period (ΔBIC = {ref.delta_bic:.1f}).")
         else:
-            out.append("A constant period still describes the mid-times about as well as any alternative.")
-        if stand:
-            out.append("Still standing: " + ", ".join(stand) + ".")
-        excluded = [a.name for a in self.assessments if a.physical == "excluded"]
-        if excluded:
-            out.append("Excluded by physics: " + ", ".join(excluded) + ".")
-        modulation = [a for a in self.assessments if a.name == "sinusoidal-modulation"]
-        if modulation:
-            m = modulation[0]
-            verdict = "cannot" if m.physical == "excluded" else "could" if m.physical == "possible" else "may or may not"
-            out.append(f"The star {verdict} power the modulation through its activity cycle.")
+            out.append("A constant period describes the mid-times about as well as any alternative; "
+                       "no other hypothesis is needed.")
+        for verdict, words in ((PLAUSIBLE, "Needed by the data and physically plausible"),
+                               (IN_TENSION, "Needed by the data but in tension with the physics"),
+                               (UNTESTED, "Needed by the data, physically untested"),
+                               (EXCLUDED, "Needed by the data but physically excluded")):
+            names = [a.name for a in self.assessments if a.verdict == verdict]
+            if names:
+                out.append(f"{words}: " + ", ".join(names) + ".")
         return " ".join(out)
 
     def to_dict(self) -> dict:
@@ -165,24 +159,18 @@ def timing_context(system) -> HostContext:
     return HostContext.from_system(system)
 
 
-def _assess(fit, delta_bic, system) -> Assessment:
+def _assess(fit, comparison, system) -> Assessment:
+    delta_bic = comparison.delta_bic(fit)
     checks = checks_for(fit, system)
     decisive = [c for c in checks if c.decisive]
     fails = [c for c in decisive if c.outcome == "fail"]
-    passes = [c for c in decisive if c.outcome == "pass"]
-    physical = "excluded" if fails else "possible" if passes or not decisive else "untested"
-    stat = statistical_standing(delta_bic)
-    if fails:
-        verdict, reason = "excluded by physics", fails[0].reason
-    elif delta_bic > REJECT_DELTA_BIC:
-        verdict, reason = "disfavoured by the data", f"ΔBIC = {delta_bic:.1f} ({stat})"
-    elif physical == "untested":
-        missing = "; ".join(c.reason for c in decisive if c.outcome == "untested")
-        verdict, reason = "stands, physically untested", missing
-    else:
-        verdict = "stands"
-        reason = f"ΔBIC = {delta_bic:.1f} ({stat}); " + ("; ".join(c.reason for c in passes) or "no physical objection")
-    return Assessment(fit.name, fit, float(delta_bic), stat, checks, physical, verdict, reason)
+    physical = ("excluded" if fails else "in tension" if any(c.outcome == "tension" for c in decisive)
+                else "untested" if any(c.outcome == "untested" for c in decisive) else "possible")
+    validity = fit.hypothesis.validity(fit.model_theta(), fit.data)
+    gain = bic_gain(fit, comparison)
+    verdict, reason = decide(fit.name, delta_bic, gain, validity, checks)
+    return Assessment(fit.name, fit, float(delta_bic), statistical_standing(delta_bic), checks, physical,
+                      verdict, reason, validity, gain)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -321,7 +309,7 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
 
         notes += [{"kind": "leverage", "message": lev.message()} for lev in
                   find_leverage(comparison.best, table, context=HostContext.from_system(system))]
-    assessments = [_assess(f, comparison.delta_bic(f), system) for f in comparison.fits]
+    assessments = [_assess(f, comparison, system) for f in comparison.fits]
     standing = [a.fit for a in assessments if a.stands]
     duration = None
     try:
@@ -332,12 +320,17 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
         pass
     forecast = make_forecast(standing or [comparison.best], ref, table, options.forecast_years,
                              options.timing_precision_s, duration, table.target, now=options.now)
-    diagnosis = Diagnosis(table, system, assessments, residual_periodogram(data), forecast, suspicions, notes,
+    periodogram = residual_periodogram(data)
+    if periodogram.best_beyond_baseline:
+        notes.append({"kind": "periodogram", "message": (
+            f"the periodogram's highest peak ({periodogram.best_period / 365.25:.3g} yr) is longer than the "
+            f"{periodogram.baseline / 365.25:.3g}-yr baseline: it marks a trend (curvature), not a measured period")})
+    diagnosis = Diagnosis(table, system, assessments, periodogram, forecast, suspicions, notes,
                           settings=options.describe())
     if pmap is not None:
         diagnosis.perturbers = pmap
         diagnosis.settings["perturber_map"] = options.perturber_map.describe()
-    diagnosis.curves = _curves(diagnosis)
+    diagnosis.curves = figure_curves(diagnosis)
     return diagnosis
 
 
@@ -367,59 +360,3 @@ def _fit_all(data, hypotheses, options: DiagnosisOptions, executor, notes: list)
             if {"kind": "convergence", "message": msg} not in notes:
                 notes.append({"kind": "convergence", "message": msg})
     return comparison
-
-
-def _year(bjd):
-    from astropy.time import Time
-
-    return Time(np.asarray(bjd, float), format="jd", scale="tdb").decimalyear
-
-
-def _curves(diagnosis: Diagnosis) -> dict:
-    """Arrays the figures draw (the figures compute nothing)."""
-    from ttvkit.physics import activity_envelope
-
-    system, table = diagnosis.system, diagnosis.table
-    ref = diagnosis["constant-period"].fit
-    data = ref.data
-    out = {"point_year": _year(table.time), "point_source": table.source, "point_kind": table.kind,
-           "point_oc_s": ref.residuals() * DAY_S, "point_sigma_s": table.uncertainty * DAY_S}
-    lead = (diagnosis.standing or diagnosis.assessments)[0]
-    out["lead"] = lead.name
-    out["point_residual_s"] = lead.fit.residuals() * DAY_S
-    grid = np.linspace(table.epoch.min(), table.epoch.max(), 600)
-    gdata = data.at_epochs(grid)
-    ref_line = ref.hypothesis.predict(ref.model_theta(), gdata)
-    out["model_year"] = _year(ref_line + data.t_ref)
-    out["models"] = {}
-    shown = [a for a in diagnosis.assessments if a.stands] or [lead]
-    for a in shown[:4]:
-        med, lo, hi = prediction_band(a.fit, gdata)
-        out["models"][a.name] = ((med - ref_line) * DAY_S, (lo - ref_line) * DAY_S, (hi - ref_line) * DAY_S)
-    span_yr = max(np.ptp(table.time) / YEAR_D, 1.0)
-    periods = np.geomspace(0.5, 10 * span_yr, 60) * u.yr
-    try:
-        out["envelope_thin_s"] = activity_envelope(system, periods, "thin shell").value
-        out["envelope_finite_s"] = activity_envelope(system, periods, "finite shell").value
-        out["envelope_period_yr"] = periods.value
-    except MissingValueError:
-        pass
-    for a in diagnosis.assessments:
-        if a.name == "sinusoidal-modulation":
-            d = a.fit.derived_table()
-            out["signal"] = {k: d[k] for k in ("semi_amplitude", "modulation_period_yr")}
-            out["signal_verdict"] = a.verdict
-    p = np.geomspace(1 / YEAR_D, 30 * span_yr, 120) * u.yr
-    k_limit = rv_threshold_semi_amplitude(p, system.radial_velocity)
-    if k_limit is not None:
-        out["rv_limit_period_yr"] = p.value
-        out["rv_limit_K"] = k_limit.to_value(u.m / u.s)
-    out["rv_points"] = {}
-    for a in diagnosis.assessments:
-        for c in a.checks:
-            if c.name == "radial-velocity visibility" and c.value is not None:
-                params = a.fit.parameter_table()
-                key = "companion_period" if "companion_period" in params else "perturber_period"
-                if key in params and a.name not in out["rv_points"]:
-                    out["rv_points"][a.name] = (params[key]["value"] / YEAR_D, c.value, c.outcome)
-    return out

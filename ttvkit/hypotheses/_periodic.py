@@ -10,7 +10,7 @@ from ttvkit._linear import weighted_lstsq
 from ttvkit.constants import DAY_S
 from ttvkit.hypotheses.base import TimingData
 
-__all__ = ["period_range", "candidate_periods", "sinusoid_at", "amplitude_limit"]
+__all__ = ["period_range", "candidate_periods", "sinusoid_at", "amplitude_limit", "longer_than_baseline"]
 
 
 def period_range(data: TimingData) -> tuple[float, float]:
@@ -68,3 +68,17 @@ def sinusoid_at(data: TimingData, residuals: np.ndarray, period: float) -> tuple
 def amplitude_limit(data: TimingData, residuals: np.ndarray) -> float:
     """Bound (seconds) for amplitudes: 20× the largest residual or 10× the median error."""
     return float(max(20 * np.max(np.abs(residuals)), 10 * np.median(data.sigma)) * DAY_S)
+
+
+def longer_than_baseline(period: float, data: TimingData, what: str) -> str | None:
+    """The validity reason of a periodic term whose period (days) exceeds the data's span, else None.
+
+    Less than one cycle in the data cannot tell a periodic signal from a
+    trend (a polynomial): such a fit says "there is curvature", not "there
+    is a cycle of this period" (common practice, no source).
+    """
+    span = data.span
+    if span > 0 and period > span:
+        return (f"{what} of {period / 365.25:.3g} yr is {period / span:.2g}× the {span / 365.25:.3g}-yr "
+                "baseline: less than one cycle is covered, so the fit describes a trend, not a cycle")
+    return None

@@ -237,6 +237,15 @@ class Term(ABC):
         """Derived quantities: name → :class:`Derived`, from parameter samples."""
         return {}
 
+    def validity(self, p: dict, data: TimingData) -> str | None:
+        """Where this term's model holds: None inside its domain, else the reason in words.
+
+        ``p`` maps this term's (and the ephemeris') parameter names to arrays
+        of shape ``(1, 1)`` at the fitted values, as :meth:`derived` receives
+        them.  The default: valid everywhere.
+        """
+        return None
+
 
 class Hypothesis:
     """An ephemeris term plus additive terms: one explanation of the mid-times.
@@ -314,6 +323,19 @@ class Hypothesis:
         lo, hi = self.bounds(data)
         span = hi - lo
         return [np.clip(s, lo + 1e-9 * span, hi - 1e-9 * span) for s in starts]
+
+    def validity(self, theta, data: TimingData) -> list[str]:
+        """Reasons (one per term) why the fitted ``theta`` lies outside a term's validity domain."""
+        parts = self.split(np.atleast_2d(np.asarray(theta, float)[..., :self.n_parameters])[:1])
+        base = parts[0][1]
+        reasons = []
+        for term, p in parts:
+            merged = dict(base)
+            merged.update(p)
+            reason = term.validity(merged, data)
+            if reason:
+                reasons.append(reason)
+        return reasons
 
     def derived(self, theta, data: TimingData) -> dict:
         """Derived quantities of every term from parameter samples ``(..., n_parameters)``."""

@@ -25,6 +25,7 @@ from ttvkit.constants import DAY_S, YEAR_D
 from ttvkit.hypotheses._periodic import (
     amplitude_limit,
     candidate_periods,
+    longer_than_baseline,
     period_range,
     sinusoid_at,
 )
@@ -118,3 +119,7 @@ class LightTravelTime(Term):
             mins = np.array([minimum_companion_mass(f * u.Msun, host * u.Msun).to_value(u.Mjup) for f in chosen])
             out["minimum_companion_mass"] = Derived(mins, "Mjup", "companion mass for sin i = 1")
         return out
+
+    def validity(self, p, data):
+        """Valid while the companion's period is shorter than the baseline (a longer one is a trend)."""
+        return longer_than_baseline(float(np.ravel(p["companion_period"])[0]), data, "the companion's period")

@@ -17,6 +17,7 @@ from ttvkit.constants import DAY_S, YEAR_D
 from ttvkit.hypotheses._periodic import (
     amplitude_limit,
     candidate_periods,
+    longer_than_baseline,
     period_range,
     sinusoid_at,
 )
@@ -66,3 +67,7 @@ class SinusoidalModulation(Term):
             "delta_P_over_P": Derived(2 * np.pi * amp / (period * DAY_S), "",
                                       "period modulation ΔP/P = 2πA/P_mod"),
         }
+
+    def validity(self, p, data):
+        """Valid while the modulation period is shorter than the baseline (a longer one is a trend)."""
+        return longer_than_baseline(float(np.ravel(p["modulation_period"])[0]), data, "the modulation period")

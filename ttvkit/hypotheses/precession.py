@@ -86,3 +86,16 @@ class ApsidalPrecession(Term):
             "precession_period": Derived(2 * np.pi / rate * period / YEAR_D, "yr", "time for ω to turn once"),
             "domega_dt": Derived(np.degrees(rate / period) * YEAR_D, "deg/yr", "precession rate"),
         }
+
+    def validity(self, p, data):
+        """Valid while e is small enough for the first-order expansion (e ≤ 0.1 here, the prior's edge).
+
+        The neglected terms are O(e²) of the shift e P/π (Giménez & Bastero
+        1995): at e = 0.1 about 10%; a fit pressed against the bound wants a
+        larger e than the model can describe.
+        """
+        e = float(np.hypot(np.ravel(p["e_cos_omega0"])[0], np.ravel(p["e_sin_omega0"])[0]))
+        if e >= 0.098:
+            return (f"the fit needs e = {e:.3g}, at the edge of the first-order expansion in e "
+                    "(Giménez & Bastero 1995; valid for e ≲ 0.1)")
+        return None

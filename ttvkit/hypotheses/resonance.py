@@ -21,7 +21,7 @@ from __future__ import annotations
 import numpy as np
 
 from ttvkit.constants import DAY_S, MJUP_PER_MSUN
-from ttvkit.hypotheses._periodic import amplitude_limit, candidate_periods, sinusoid_at
+from ttvkit.hypotheses._periodic import amplitude_limit, candidate_periods, longer_than_baseline, sinusoid_at
 from ttvkit.hypotheses.base import Derived, Parameter, Term
 from ttvkit.physics.resonance import normalised_distance, resonance_coefficients
 
@@ -113,3 +113,22 @@ class NearResonantPerturber(Term):
             out["perturber_mass"] = Derived(mu * host * MJUP_PER_MSUN, "Mjup",
                                             "perturber mass for zero free eccentricity")
         return out
+
+    def validity(self, p, data):
+        """Valid for a super-period shorter than the baseline and abs(Δ) outside the resonance width.
+
+        Lithwick, Xie & Wu (2012, ApJ 761, 122) require the pair to be near,
+        not in, resonance; the resonance width in Δ scales as μ^{2/3} (their
+        Section 2; from memory), so abs(Δ) must exceed μ^{2/3} of the implied
+        perturber.
+        """
+        d = self.derived(p, data)
+        reason = longer_than_baseline(float(np.ravel(d["super_period"].values)[0]), data, "the super-period")
+        if reason:
+            return reason
+        delta = abs(float(np.ravel(d["resonance_distance"].values)[0]))
+        width = float(np.ravel(d["perturber_mass_ratio"].values)[0]) ** (2 / 3)
+        if delta <= width:
+            return (f"abs(Δ) = {delta:.3g} lies inside the resonance width μ^(2/3) = {width:.3g} of the implied "
+                    "perturber: the near-resonant formula (Lithwick, Xie & Wu 2012) does not hold in resonance")
+        return None

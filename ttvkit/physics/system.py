@@ -13,6 +13,7 @@ and the other way round.
 
 from __future__ import annotations
 
+import re
 import sys
 from dataclasses import dataclass, field, fields
 from pathlib import Path
@@ -98,9 +99,11 @@ class Star(_Section):
     age: u.Quantity | None = None
 
     def __post_init__(self):
+        self.derived_fields = set()   # filled in here, re-derived when the inputs are redrawn
         if self.luminosity is None and self.teff is not None and self.radius is not None:
             self.luminosity = (4 * np.pi * self.radius ** 2 * const.sigma_sb
                                * self.teff ** 4).to(u.Lsun)
+            self.derived_fields.add("luminosity")
 
     @property
     def structure_index(self) -> float:
@@ -177,16 +180,22 @@ class System:
     orbit: Orbit = field(default_factory=Orbit)
     radial_velocity: RadialVelocityLimits = field(default_factory=RadialVelocityLimits)
     name: str = "unnamed system"
+    #: 1σ uncertainties of given values, keyed "section.key" (e.g. "star.mass"), same units as the values
+    uncertainties: dict = field(default_factory=dict)
 
     def __post_init__(self):
         o, s = self.orbit, self.star
+        o.derived_fields = getattr(o, "derived_fields", set())
         if o.semi_major_axis is None and o.a_over_rstar is not None and s.radius is not None:
             o.semi_major_axis = (o.a_over_rstar * s.radius).to(u.AU)
+            o.derived_fields.add("semi_major_axis")
         if o.semi_major_axis is None and o.period is not None and s.mass is not None:
             total = s.mass + (self.companion.mass if self.companion.mass is not None else 0 * u.Msun)
             o.semi_major_axis = ((const.G * total * o.period ** 2 / (4 * np.pi ** 2)) ** (1 / 3)).to(u.AU)
+            o.derived_fields.add("semi_major_axis")
         if o.a_over_rstar is None and o.semi_major_axis is not None and s.radius is not None:
             o.a_over_rstar = float((o.semi_major_axis / s.radius).decompose())
+            o.derived_fields.add("a_over_rstar")
 
     @property
     def semi_major_axis(self) -> u.Quantity:
@@ -219,7 +228,7 @@ class System:
     def from_dict(cls, data: dict, where: str = "system") -> "System":
         """Build a System from nested dicts of strings/numbers (as in the TOML file)."""
         name = data.get("name", "unnamed system")
-        tables = {}
+        tables, errors = {}, {}
         for section, schema in _SCHEMA.items():
             raw = data.get(section, {})
             if not isinstance(raw, dict):
@@ -229,7 +238,10 @@ class System:
                 if key not in schema:
                     raise InputError(f"{where}: [{section}] has unknown key {key!r}; known keys: "
                                      f"{', '.join(schema)}")
-                values[key] = _parse(value, schema[key], where, section, key)
+                text, error = _split_uncertainty(value, where, section, key)
+                values[key] = _parse(text, schema[key], where, section, key)
+                if error is not None:
+                    errors[f"{section}.{key}"] = _parse(error, schema[key], where, section, key)
             tables[section] = values
         for section in data:
             if section not in _SCHEMA and section != "name":
@@ -240,7 +252,7 @@ class System:
             star.need(key, f"every physical check (system file {where})")
         _check_ranges(where, tables)
         system = cls(star, Companion(**tables["companion"]), Orbit(**tables["orbit"]),
-                     RadialVelocityLimits(**tables["radial_velocity"]), str(name))
+                     RadialVelocityLimits(**tables["radial_velocity"]), str(name), errors)
         for section in (system.star, system.companion, system.orbit, system.radial_velocity):
             section._where = where
         from ttvkit.physics.system_checks import check_consistency
@@ -262,6 +274,31 @@ class System:
                     entry[f.name] = v
             out[section] = entry
         return out
+
+
+_UNCERTAIN = re.compile(r"^\s*(?P<value>[-+0-9.eE]+)\s*(?:\+-|\+/-|±)\s*(?P<error>[0-9.eE+-]+)\s*(?P<unit>.*)$")
+
+
+def _split_uncertainty(value, where, section, key):
+    """``"1.43 +- 0.07 Msun"`` (or ``±``, ``+/-``) → ("1.43 Msun", "0.07 Msun"); other values unchanged."""
+    if not isinstance(value, str):
+        return value, None
+    match = _UNCERTAIN.match(value)
+    if match is None:
+        if "+-" in value or "±" in value or "+/-" in value:
+            raise InputError(f"{where}: [{section}] {key} = {value!r}: write a value with its 1σ uncertainty "
+                             "as \"1.43 +- 0.07 Msun\"")
+        return value, None
+    unit = match["unit"].strip()
+    try:
+        number, error = float(match["value"]), float(match["error"])
+    except ValueError:
+        raise InputError(f"{where}: [{section}] {key} = {value!r}: unparseable value or uncertainty") from None
+    if not error >= 0:
+        raise InputError(f"{where}: [{section}] {key} = {value!r}: the uncertainty must not be negative")
+    if not unit:
+        return number, error
+    return f"{match['value']} {unit}", f"{match['error']} {unit}"
 
 
 def _parse(value, unit, where, section, key):

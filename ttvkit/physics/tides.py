@@ -34,7 +34,8 @@ from ttvkit.physics.system import System
 
 __all__ = ["decay_rate_from_quality_factor", "quality_factor_from_decay_rate", "decay_timescale",
            "time_to_roche_limit", "roche_limit", "QUALITY_FACTOR_RANGES", "plausible_quality_factor",
-           "general_relativity_precession", "tidal_precession"]
+           "general_relativity_precession", "tidal_precession", "MEASURED_QUALITY_FACTORS",
+           "QUALITY_FACTOR_FLOOR", "measured_quality_factor_floor"]
 
 
 def _ratio_terms(system: System, formula: str):
@@ -126,14 +127,41 @@ class QualityFactorRange:
 #: 2012, ApJ 757, 6) wants 10^6–10^8; tidal-period-dependent fits (Penev et
 #: al. 2018, AJ 155, 165) span 10^5–10^7; an evolved or F-type host may sit
 #: at 10^5 (WASP-12: Yee et al. 2020; Weinberg et al. 2017, ApJL 849, L11).
+#: The ``source`` strings are what a report prints (author, year, journal); that the ranges are
+#: recalled, not re-read, is stated here and in the documentation.  A measured Q'_* outside them is
+#: reported as a tension, never excluded (diagnosis.checks).
 QUALITY_FACTOR_RANGES = (
     QualityFactorRange("solar-type dwarf (Teff < 6100 K)", 5.0, 8.5,
-                       "Meibom & Mathieu 2005; Hansen 2012; Penev et al. 2018 (memory)"),
+                       "Meibom & Mathieu 2005, ApJ 620, 970; Hansen 2012, ApJ 757, 6; "
+                       "Penev et al. 2018, AJ 155, 165"),
     QualityFactorRange("F-type dwarf (Teff >= 6100 K)", 5.5, 9.0,
-                       "Hansen 2012; Penev et al. 2018 (memory)"),
+                       "Hansen 2012, ApJ 757, 6; Penev et al. 2018, AJ 155, 165"),
     QualityFactorRange("subgiant", 4.5, 7.0,
-                       "Weinberg et al. 2017; Yee et al. 2020 (memory)"),
+                       "Weinberg et al. 2017, ApJL 849, L11; Yee et al. 2020, ApJL 888, L5"),
 )
+
+
+#: Q'_* measured from the decay of real hot-Jupiter orbits: (value, 1σ or None, source).  Read in the
+#: abstracts or catalogue ReadMe (shared/CHECKS.md); the lowest bounds what "has been measured".
+MEASURED_QUALITY_FACTORS = (
+    (1.39e5, 0.15e5, "Turner et al. 2021, AJ 161, 72 (WASP-12)"),
+    (1.8e5, None, "Yee et al. 2020, ApJL 888, L5 (WASP-12)"),
+    (1.72e5, 0.39e5, "Kutluay et al. 2023, TJAA 4, 10 (WASP-12)"),
+    (2.5e5, None, "Maciejewski et al. 2016, A&A 588, L6 (WASP-12)"),
+)
+
+#: The floor below which a Q'_* is physically impossible.  Q'_* = 3Q/(2k₂), with Q ≥ 1 (a tide cannot
+#: dissipate more than its whole energy per cycle: Q⁻¹ = sin of twice the lag angle, at most 1) and
+#: k₂ ≤ 3/2 (a homogeneous fluid body, the most deformable; centrally condensed stars have far less),
+#: so Q'_* ≥ 1 (Goldreich & Soter 1966 definitions; from memory).  Anything between this floor and
+#: the measured values is "unusual", never excluded.
+QUALITY_FACTOR_FLOOR = 1.0
+
+
+def measured_quality_factor_floor() -> tuple[float, str]:
+    """The lowest Q'_* measured on a real orbit, as its lower 2σ bound, and the source."""
+    low = min(MEASURED_QUALITY_FACTORS, key=lambda m: m[0] - 2 * (m[1] or 0.0))
+    return low[0] - 2 * (low[1] or 0.0), low[2]
 
 
 def plausible_quality_factor(system: System) -> QualityFactorRange:

@@ -56,8 +56,11 @@ def oc_figure(diagnosis) -> Figure:
             top.errorbar(c["point_year"][m], c["point_oc_s"][m], c["point_sigma_s"][m], **kw)
             bottom.errorbar(c["point_year"][m], c["point_residual_s"][m], c["point_sigma_s"][m], **kw)
         styles = ["-", "--", "-.", ":"]
+        marked = c.get("marked", {})     # drawn though it does not stand (the best fit): say why
         for j, (name, (med, lo, hi)) in enumerate(c["models"].items()):
-            top.plot(c["model_year"], med, styles[j % 4], color="k", lw=1.2, label=name)
+            label = f"{name} ({marked[name]})" if name in marked else name
+            top.plot(c["model_year"], med, styles[j % 4], color=COLOURS[1] if name in marked else "k",
+                     lw=1.2, label=label)
             top.fill_between(c["model_year"], lo, hi, color="0.6", alpha=0.35, lw=0)
         top.axhline(0, color="0.5", lw=0.6)
         bottom.axhline(0, color="k", lw=0.8)
@@ -66,7 +69,7 @@ def oc_figure(diagnosis) -> Figure:
         bottom.text(0.01, 0.92, f"residuals from {c['lead']}", transform=bottom.transAxes, va="top", fontsize=7)
         bottom.set_xlabel("year (BJD_TDB)")
         top.legend(loc="best", ncol=2, frameon=False)
-        top.set_title(f"{diagnosis.system.name}: mid-times and the hypotheses still standing")
+        top.set_title(f"{diagnosis.system.name}: mid-times, the hypotheses the data need and the best fit")
     return fig
 
 

@@ -1,0 +1,59 @@
+"""The physical model behind each Term's checks: (title, assumptions), as the report states them."""
+
+from __future__ import annotations
+
+from ttvkit.hypotheses import (
+    ApsidalPrecession,
+    LightTravelTime,
+    NBodyPerturber,
+    NearResonantPerturber,
+    OrbitalDecay,
+    SinusoidalModulation,
+)
+
+__all__ = ["PHYSICAL_MODELS"]
+
+#: The physical model behind each Term's checks: (title, assumptions), as the report states them.
+PHYSICAL_MODELS = {
+    NBodyPerturber: (
+        "Perturbing planet (N-body fit)",
+        "The transiting planet and one more planet of fitted mass, period, eccentricity vector and mean "
+        "longitude, integrated directly (the same corrected Wisdom–Holman map); coplanar, edge-on orbits "
+        "of point masses; the transiting planet's eccentricity held at the System's; T0 and P are the "
+        "mean ephemeris (the integration's straight line over the data is removed). The fit starts from "
+        "the map's best points when the map is made, from near-resonant periods and from a coarse grid; "
+        "another mode may exist elsewhere in period. Hill stability after Gladman (1993) for circular "
+        "orbits."),
+    SinusoidalModulation: (
+        "Activity cycle (Applegate 1992)",
+        "An activity cycle moves angular momentum between the star's interior and an outer shell; the "
+        "shell's changed spin changes the star's quadrupole moment and so the orbital period. Core and "
+        "shell rotate rigidly; the quadrupole follows the shell's spin at once; the modulation is "
+        "sinusoidal; the whole luminosity is available over one cycle; the initial differential rotation "
+        "equals its change. The spin is the star's own when its rotation period is known, synchronous "
+        "otherwise. Thin shell: 0.1 M at the surface. Finite shell (in the manner of Völschow et al. "
+        "2016): a Lane–Emden polytrope (n = 1.5 below 0.5 M☉, else 3) with the energy minimised over the "
+        "shell thickness."),
+    OrbitalDecay: (
+        "Tidal decay (Goldreich & Soter 1966; Patra et al. 2017)",
+        "Constant-phase-lag tide raised on the star by a planet on a circular orbit; Q'_* constant; the "
+        "planet's own tide neglected. Q'_* is compared with the values measured on real orbits (WASP-12: "
+        "Maciejewski et al. 2016, A&A 588, L6; Yee et al. 2020, ApJL 888, L5; Turner et al. 2021, AJ 161, 72) "
+        "and with population studies; outside that range it is unusual (a tension), never excluded, "
+        "unless below the physical floor Q'_* ≥ 1."),
+    ApsidalPrecession: (
+        "Apsidal precession (Giménez & Bastero 1995)",
+        "A slightly eccentric orbit to first order in e; a constant precession rate; the rate expected "
+        "from general relativity and the tidal bulges (Ragozzine & Wolf 2009) with Love numbers k2 = 0.6 "
+        "(planet) and 0.03 (star), uncertain by a factor of a few."),
+    LightTravelTime: (
+        "Distant companion (Irwin 1952)",
+        "A Keplerian outer orbit of a point-mass pair; the light-travel time shifts all events alike. The "
+        "companion would already have been seen if its RV change over the baseline exceeds 3× the RV "
+        "scatter."),   # the 3× rule: common practice, no source (said in the docs, not the report)
+    NearResonantPerturber: (
+        "Near-resonant perturber (Lithwick, Xie & Wu 2012)",
+        "Coplanar, nearly circular orbits near (not in) a first-order resonance; the quoted mass assumes "
+        "zero free eccentricity (a free eccentricity trades against the mass). Hill stability after "
+        "Gladman (1993) for circular orbits."),
+}

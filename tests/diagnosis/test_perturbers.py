@@ -52,6 +52,43 @@ def test_period_grid_packs_resonances():
     assert np.all(np.diff(grid) > 0)
 
 
+def test_the_period_count_asked_for_is_the_count_given():
+    # Defect found as a user: "--periods 60" gave 122 periods of which only 2
+    # were evenly spaced in log period.  Now the 60 asked for are evenly
+    # spaced over 0.3-10x (checked against numpy's geomspace) and the
+    # resonance points come on top, which the map's notes say.
+    options = PerturberMapOptions(n_periods=60)
+    grid = options.period_grid(P * u.day).to_value(u.day) / P
+    even = np.geomspace(0.3, 10.0, 60)
+    assert all(np.min(np.abs(grid - x)) < 1e-12 for x in even)
+    assert grid.size > 60 and options.log_spaced_count() == 60
+    # the largest gap in log period is the even spacing, not a jump over 3-10x
+    assert np.max(np.diff(np.log(grid))) <= np.log(10 / 0.3) / 59 + 1e-12
+
+
+def test_the_best_point_is_one_the_rv_limits_allow():
+    # Defect found as a user: the summary promoted a point whose RV signal the
+    # System's RV limits exclude.  With RV limits of 0.05 m/s over 5 yr the
+    # injected 20-Earth-mass perturber at 2.05x (K ~ 5 m/s: Lovis & Fischer
+    # 2010, eq. 14) is excluded, so it must not be ranked best; every point
+    # that is ranked has a best mass whose K the limits allow.
+    table = injected_table(20.0, 2.05, np.pi / 2)
+    periods = np.array([2.05 * P, 2.6 * P]) * u.day
+    tight = sun_and_jupiter(P, rv_baseline_yr=5.0, rv_rms=0.05)
+    pmap = map_perturbers(table, tight, periods=periods, n_phases=4, progress=False,
+                          executor=ThreadPoolExecutor(2))
+    injected = ((np.abs(pmap.grid["period"].to_value(u.day) - 2.05 * P) < 1e-9)
+                & (np.abs(pmap.grid["phase"].to_value(u.rad) - np.pi / 2) < 1e-9))
+    assert pmap.grid["delta_chi2_best"][injected][0] > 100          # the data prefer it ...
+    assert not pmap.grid["best_allowed"][injected][0]               # ... the RVs exclude it
+    best = pmap.best()
+    if best is not None:
+        assert best["best_allowed"]
+        assert best["best_mass"].to_value(u.Mearth) < 1.0            # only a mass the RVs miss
+    assert pmap.to_dict()["best_point"] is None or pmap.to_dict()["best_point"]["rv_seen"] is False
+    assert any("RV limits" in n for n in pmap.notes)
+
+
 @pytest.fixture(scope="module")
 def recovered():
     # a 20-Earth-mass perturber at 2.05x (near 2:1), at one of the grid's phases

@@ -103,9 +103,15 @@ def test_map_recovers_an_injected_perturber(recovered):
     # Injected truth (this test's own simulation): the best grid point is the
     # injected period and phase, its mass within 2 sigma-equivalents of 20
     # Earth masses (Delta chi2 of the best mass from the truth < 4), and the
-    # largest allowed mass there is above the truth.
+    # largest allowed mass there is above the truth.  The test System's RVs
+    # (3 m/s rms over 5 yr) would have seen this perturber (K ~ 7 m/s: Lovis &
+    # Fischer 2010, eq. 14), so the physics-ranked best() must not name it:
+    # the point the data prefer is read from the grid directly.
     table, pmap = recovered
-    best = pmap.best()
+    best = pmap.grid[int(np.argmax(pmap.grid["delta_chi2_best"]))]
+    assert best["rv_seen_best"] == 1 and not best["best_allowed"]
+    allowed = pmap.best()
+    assert allowed is None or (allowed["best_allowed"] and allowed["rv_seen_best"] != 1)
     assert best["period"].to_value(u.day) == pytest.approx(2.05 * P)
     # (the map's ratios are to the fitted mean period, 1e-5 from the osculating 3 d)
     assert best["phase"].to_value(u.rad) == pytest.approx(np.pi / 2)

@@ -209,6 +209,36 @@ def _newton(r, v, m, cum, planet, mu_e, wx, wv):
 
 
 @njit(cache=True)
+def _refine(p, tau, h, r0, vs, m, gm, cum, mu, corrector, inv_k, inv_v, wx, wv, wa, wdx, wp, a, da, rt, vt):
+    """Time of planet ``p``'s transit within the step from the synchronised state (r0, vs).
+
+    Newton on g over a map step of trial length τ with plain kicks; with the
+    corrector, back to real coordinates at the transit and one more Newton
+    step.  Leaves the refined barycentric state in ``wx``.
+    """
+    mu_e = _G * (m[0] + m[p + 1])
+    for _ in range(40):
+        rt[:, :] = r0
+        vt[:, :] = vs
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _drift(rt, vt, mu, tau)
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        delta = _newton(rt, vt, m, cum, p, mu_e, wx, wv)
+        tau = min(max(tau - delta, 0.0), h)
+        if not abs(delta) >= 1e-10:
+            break
+    if corrector:
+        rt[:, :] = r0
+        vt[:, :] = vs
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _drift(rt, vt, mu, tau)
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _apply(inv_k, inv_v, h, rt, vt, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        tau = tau - _newton(rt, vt, m, cum, p, mu_e, wx, wv)
+    return tau
+
+
+@njit(cache=True)
 def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
                 fwd_k, fwd_v, inv_k, inv_v, kappa, out):
     nb = m.shape[0]
@@ -279,28 +309,8 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
         for p in range(n):
             if not hit[p]:
                 continue
-            mu_e = _G * (m[0] + m[p + 1])
-            tau = tau0[p]
-            for _ in range(40):
-                rt[:, :] = r0
-                vt[:, :] = vs
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                _drift(rt, vt, mu, tau)
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                delta = _newton(rt, vt, m, cum, p, mu_e, wx, wv)
-                tau = min(max(tau - delta, 0.0), h)
-                if not abs(delta) >= 1e-10:
-                    break
-            if corrector:
-                # back to real coordinates at the transit, then one more Newton step
-                rt[:, :] = r0
-                vt[:, :] = vs
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                _drift(rt, vt, mu, tau)
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                _apply(inv_k, inv_v, h, rt, vt, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                tau = tau - _newton(rt, vt, m, cum, p, mu_e, wx, wv)
-            t = step * h + tau
+            t = step * h + _refine(p, tau0[p], h, r0, vs, m, gm, cum, mu, corrector, inv_k, inv_v,
+                                   wx, wv, wa, wdx, wp, a, da, rt, vt)
             if light_time:            # the star's barycentric z (wx holds the refined state)
                 t -= wx[0, 2] / C_AU_PER_DAY
             out[p, count[p] - 1] = t

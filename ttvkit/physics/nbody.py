@@ -46,7 +46,6 @@ from __future__ import annotations
 
 import numpy as np
 
-from ttvkit.constants import C_AU_PER_DAY
 from ttvkit.errors import InputError
 
 __all__ = ["GAUSS_G", "elements_to_cartesian", "transit_times", "reference_transit_times", "default_step",

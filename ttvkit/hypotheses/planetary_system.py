@@ -231,6 +231,29 @@ class PlanetarySystem:
                 index[rows] = k
         return SystemTimes(idx, time, sigma, index)
 
+    def oc_curves(self, theta, data: SystemTimes) -> dict:
+        """Per transiting planet, the O−C data and model against the model's own mean ephemeris (s).
+
+        Returns ``{name: {"index", "oc_s", "sigma_s", "model_index", "model_oc_s"}}``; the
+        straight line is fitted to the model's every transit over the data's span, so data and
+        model share it (what report figures draw).
+        """
+        model = self.all_transits(theta, float(np.max(data.time)) + 1.0)
+        curves = {}
+        for i, name in enumerate(self.names):
+            rows = data.planet == i
+            if not np.any(rows):
+                continue
+            k = np.arange(int(data.index[rows].max()) + 1)
+            tk = model[i, k]
+            ok = np.isfinite(tk)
+            slope, intercept = np.polyfit(k[ok], tk[ok], 1)
+            curves[name] = {"index": data.index[rows],
+                            "oc_s": (data.time[rows] - intercept - slope * data.index[rows]) * 86400.0,
+                            "sigma_s": data.sigma[rows] * 86400.0, "model_index": k[ok],
+                            "model_oc_s": (tk[ok] - intercept - slope * k[ok]) * 86400.0}
+        return curves
+
     # -- derived quantities --------------------------------------------------------------------------
     def masses_earth(self, theta, cov=None) -> list[tuple[str, float, float]]:
         """(name, mass [M⊕], 1σ) per planet, the star's mass uncertainty propagated in quadrature."""

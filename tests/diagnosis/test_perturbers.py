@@ -52,6 +52,43 @@ def test_period_grid_packs_resonances():
     assert np.all(np.diff(grid) > 0)
 
 
+def test_the_period_count_asked_for_is_the_count_given():
+    # Defect found as a user: "--periods 60" gave 122 periods of which only 2
+    # were evenly spaced in log period.  Now the 60 asked for are evenly
+    # spaced over 0.3-10x (checked against numpy's geomspace) and the
+    # resonance points come on top, which the map's notes say.
+    options = PerturberMapOptions(n_periods=60)
+    grid = options.period_grid(P * u.day).to_value(u.day) / P
+    even = np.geomspace(0.3, 10.0, 60)
+    assert all(np.min(np.abs(grid - x)) < 1e-12 for x in even)
+    assert grid.size > 60 and options.log_spaced_count() == 60
+    # the largest gap in log period is the even spacing, not a jump over 3-10x
+    assert np.max(np.diff(np.log(grid))) <= np.log(10 / 0.3) / 59 + 1e-12
+
+
+def test_the_best_point_is_one_the_rv_limits_allow():
+    # Defect found as a user: the summary promoted a point whose RV signal the
+    # System's RV limits exclude.  With RV limits of 0.05 m/s over 5 yr the
+    # injected 20-Earth-mass perturber at 2.05x (K ~ 5 m/s: Lovis & Fischer
+    # 2010, eq. 14) is excluded, so it must not be ranked best; every point
+    # that is ranked has a best mass whose K the limits allow.
+    table = injected_table(20.0, 2.05, np.pi / 2)
+    periods = np.array([2.05 * P, 2.6 * P]) * u.day
+    tight = sun_and_jupiter(P, rv_baseline_yr=5.0, rv_rms=0.05)
+    pmap = map_perturbers(table, tight, periods=periods, n_phases=4, progress=False,
+                          executor=ThreadPoolExecutor(2))
+    injected = ((np.abs(pmap.grid["period"].to_value(u.day) - 2.05 * P) < 1e-9)
+                & (np.abs(pmap.grid["phase"].to_value(u.rad) - np.pi / 2) < 1e-9))
+    assert pmap.grid["delta_chi2_best"][injected][0] > 100          # the data prefer it ...
+    assert not pmap.grid["best_allowed"][injected][0]               # ... the RVs exclude it
+    best = pmap.best()
+    if best is not None:
+        assert best["best_allowed"]
+        assert best["best_mass"].to_value(u.Mearth) < 1.0            # only a mass the RVs miss
+    assert pmap.to_dict()["best_point"] is None or pmap.to_dict()["best_point"]["rv_seen"] is False
+    assert any("RV limits" in n for n in pmap.notes)
+
+
 @pytest.fixture(scope="module")
 def recovered():
     # a 20-Earth-mass perturber at 2.05x (near 2:1), at one of the grid's phases
@@ -66,9 +103,15 @@ def test_map_recovers_an_injected_perturber(recovered):
     # Injected truth (this test's own simulation): the best grid point is the
     # injected period and phase, its mass within 2 sigma-equivalents of 20
     # Earth masses (Delta chi2 of the best mass from the truth < 4), and the
-    # largest allowed mass there is above the truth.
+    # largest allowed mass there is above the truth.  The test System's RVs
+    # (3 m/s rms over 5 yr) would have seen this perturber (K ~ 7 m/s: Lovis &
+    # Fischer 2010, eq. 14), so the physics-ranked best() must not name it:
+    # the point the data prefer is read from the grid directly.
     table, pmap = recovered
-    best = pmap.best()
+    best = pmap.grid[int(np.argmax(pmap.grid["delta_chi2_best"]))]
+    assert best["rv_seen_best"] == 1 and not best["best_allowed"]
+    allowed = pmap.best()
+    assert allowed is None or (allowed["best_allowed"] and allowed["rv_seen_best"] != 1)
     assert best["period"].to_value(u.day) == pytest.approx(2.05 * P)
     # (the map's ratios are to the fitted mean period, 1e-5 from the osculating 3 d)
     assert best["phase"].to_value(u.rad) == pytest.approx(np.pi / 2)

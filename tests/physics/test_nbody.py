@@ -24,8 +24,7 @@ def test_two_body_period_and_energy():
     # is conserved to 1e-12 over 1e4 orbits (Jacobi WH is exact for one
     # planet at any step, so a long step keeps the test quick).
     m, P, e, w, i, node, M = system([[10.0]], [[1e-3]], ecc=[[0.1]], omega=[[0.7]], mean=[[0.3]])
-    tt, (x, u, masses, _) = transit_times(m, P, e, w, i, node, M, t_end=1e5, dt=2.5, return_state=True,
-                                             engine="numpy")
+    tt, (x, u, masses, _) = transit_times(m, P, e, w, i, node, M, t_end=1e5, dt=2.5, return_state=True)
     t = tt[0, 0][~np.isnan(tt[0, 0])]
     assert t.size == 10000
     n = np.arange(t.size)
@@ -44,8 +43,7 @@ def test_energy_error_stays_bounded():
     e0 = energy(x0, u0, m)[0]
     errors = []
     for steps in (10_000, 100_000):
-        _, (x, u, masses, _) = transit_times(m, P, e, w, i, node, M, t_end=steps * 0.5, dt=0.5, return_state=True,
-                                             engine="numpy")
+        _, (x, u, masses, _) = transit_times(m, P, e, w, i, node, M, t_end=steps * 0.5, dt=0.5, return_state=True)
         errors.append(abs(energy(x, u, masses)[0] / e0 - 1))
     assert max(errors) < 1e-6
     assert errors[1] < 5 * max(errors[0], 1e-12)  # no secular growth over 10x the steps
@@ -119,19 +117,6 @@ def test_default_step_holds_one_second_on_the_hardest_benchmark_systems():
     assert np.all(worst_difference(fast, ref, expected=None) <= 1.0)
     plain = transit_times(*args, t_end=5000.0, planets=0, dt=0.5)
     assert worst_difference(plain, ref, expected=None).max() > 3.0     # the plain P/20 is not enough here
-
-
-def test_compiled_and_numpy_engines_run_the_same_map(dop853_grid):
-    # The compiled per-system kernel is the numpy engine's algorithm written
-    # as scalar loops: at a common step they agree to floating-point
-    # accumulation (measured 4e-5 s over 500 orbits; 1e-3 s leaves room for
-    # other compilers), for both planets, with and without the corrector.
-    args, _ = dop853_grid
-    for corrector in (True, False):
-        a = transit_times(*args, t_end=5000.0, dt=0.4, corrector=corrector)
-        b = transit_times(*args, t_end=5000.0, dt=0.4, corrector=corrector, engine="numpy")
-        np.testing.assert_array_equal(np.isnan(a), np.isnan(b))
-        assert np.nanmax(np.abs(a - b)) * 86400 < 1e-3
 
 
 def test_only_the_asked_epochs_are_refined():

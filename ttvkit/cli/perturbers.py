@@ -28,7 +28,8 @@ planet could hide, not a detection.
 def add_map_options(p: argparse.ArgumentParser) -> None:
     """Options of the map shared by ``perturbers`` and ``diagnose --perturbers``."""
     p.add_argument("--periods", type=int, default=500, metavar="N",
-                   help="number of perturber periods (default 500)")
+                   help="number of perturber periods evenly spaced in log period (default 500); points "
+                   "packed around the resonances are added on top")
     p.add_argument("--phases", type=int, default=4, help="starting phases per period (default 4)")
     p.add_argument("--range", default="0.3,10", metavar="LOW,HIGH",
                    help="perturber periods as multiples of the transiting planet's (default 0.3,10)")
@@ -113,9 +114,13 @@ def _cmd_perturbers(args) -> int:
         sys.stdout.write(text)
         return 0
     best = pmap.to_dict()["best_point"]
-    print(f"perturbers: {pmap.n_points} grid points; best: {best['mass_mearth']:.3g} Earth masses at "
-          f"{best['period_ratio']:.3f}x the period (chi2 gain {best['delta_chi2_gain']:.1f}, "
-          f"{'Hill-stable' if best['hill_stable'] else 'Hill-unstable'})")
+    if best is None:
+        print(f"perturbers: {pmap.n_points} grid points; none that the RV limits and Hill stability allow "
+              f"improves the fit")
+    else:
+        print(f"perturbers: {pmap.n_points} grid points; best allowed: {best['mass_mearth']:.3g} Earth masses "
+              f"at {best['period_ratio']:.3f}x the period (chi2 gain {best['delta_chi2_gain']:.1f}, "
+              f"Hill-stable, not excluded by the RV limits)")
     for note in pmap.notes:
         print(f"  {note}")
     print(f"wrote {args.out}/perturber_map.ecsv, perturber_grid.ecsv, perturber_map.png/.pdf, perturber_map.json")

@@ -135,9 +135,10 @@ def _diagnose(table, suspicions, paths: dict, out: Path, summary: dict, say, *, 
     diagnosis = run_diagnosis(table, system, out, options, edits=edits, say=say).diagnosis
     if diagnosis.perturbers is not None:
         best = diagnosis.perturbers.to_dict()["best_point"]
-        say(f"demo: perturber map: {diagnosis.perturbers.n_points} N-body grid points; best single "
-            f"perturber {best['mass_mearth']:.3g} Earth masses at {best['period_ratio']:.3f}x the period "
-            f"(chi2 gain {best['delta_chi2_gain']:.1f})")
+        say(f"demo: perturber map: {diagnosis.perturbers.n_points} N-body grid points; " + (
+            "no allowed perturber improves the fit" if best is None else
+            f"best allowed single perturber {best['mass_mearth']:.3g} Earth masses at "
+            f"{best['period_ratio']:.3f}x the period (chi2 gain {best['delta_chi2_gain']:.1f})"))
         summary["perturber_map"] = best
     if not fit_perturber:
         say("demo: 'ttvkit demo --fit-perturber' also fits and samples an N-body perturbing planet "

@@ -49,12 +49,15 @@ from pathlib import Path
 import astropy.units as u
 import numpy as np
 
-from ttvkit._linear import weighted_line
-from ttvkit.constants import YEAR_D
+from ttvkit.diagnosis._perturber_grid import (  # noqa: F401  (MAP_STEPS_PER_ORBIT: re-exported)
+    MAP_STEPS_PER_ORBIT,
+    _chi2_profile,
+    _Grid,
+    _template_pass,
+    _TimingFit,
+)
 from ttvkit.errors import InputError
-from ttvkit.physics import nbody
 from ttvkit.physics.companions import (
-    hill_stable,
     rv_threshold_semi_amplitude,
     rv_visibility,
 )
@@ -75,12 +78,6 @@ MAP_ASSUMPTIONS = (
     "(1993); RV visibility as for a light-travel-time companion (3× the RV scatter over the "
     "baseline).")
 
-#: Steps per orbit of the inner planet of each pair in the map's integrations
-#: (the engine's P/20, shortened for close pairs).  Measured on the tests'
-#: injected system: mass limits at P/20 within 0.2% of P/40 at all 24
-#: points; at P/8 some moved by factors up to 7 (near 7:4 and for inner
-#: perturbers), so the compiled engine's speed is spent on the step.
-MAP_STEPS_PER_ORBIT = 20
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -94,6 +91,8 @@ class PerturberMapOptions:
         ``n_periods``, ``low``, ``high`` and ``resonance_points``, scaled to
         the System's period (or the table's fitted period without one).
     n_periods : int
+        Periods evenly spaced in log period; the points packed around the
+        resonances come on top (the map's notes say how many).
     low, high : float
         Range as multiples of the transiting planet's period.
     resonance_points : int
@@ -135,7 +134,12 @@ class PerturberMapOptions:
         """The perturber periods for a transiting planet of ``transit_period``."""
         if self.periods is not None:
             return u.Quantity(self.periods, u.day)
-        return perturber_periods(transit_period, self.low, self.high, self.n_periods, self.resonance_points)
+        return perturber_periods(transit_period, self.low, self.high, self.n_periods, self.resonance_points,
+                                 refine_on_top=True)
+
+    def log_spaced_count(self) -> int:
+        """Periods evenly spaced in log period (0 when the periods are given explicitly)."""
+        return 0 if self.periods is not None else self.n_periods
 
     def describe(self) -> dict:
         """The settings recorded beside the map."""
@@ -152,7 +156,9 @@ class PerturberMap:
         One row per (period, phase): ``period``, ``phase``, ``best_mass``,
         ``largest_mass``, ``chi2_best``, ``delta_chi2_best`` (χ² gain of the
         best mass over the constant-period fit), ``rv_semi_amplitude`` (at
-        the largest mass), ``rv_seen``, ``hill_stable``, ``integrated``.
+        the largest mass), ``rv_seen``, ``hill_stable``, ``rv_seen_best``
+        (at the best mass), ``best_allowed`` (the best mass Hill-stable and
+        not excluded by the RVs: only these are ranked), ``integrated``.
     summary : astropy.table.QTable
         One row per period with the phase-optimised values.
     chi2_constant : float
@@ -189,7 +195,7 @@ class PerturberMap:
         out, seen = [], set()
         for i in order:
             row = self.grid[int(i)]
-            if not row["integrated"] or row["delta_chi2_best"] <= 0:
+            if not row["integrated"] or row["delta_chi2_best"] <= 0 or not row["best_allowed"]:
                 continue
             period = float(row["period"].to_value(u.day))
             if period in seen:
@@ -202,9 +208,16 @@ class PerturberMap:
                 break
         return out
 
-    def best(self) -> dict:
-        """The single grid point that explains the timing best."""
-        row = self.grid[int(np.argmax(self.grid["delta_chi2_best"]))]
+    def best(self) -> dict | None:
+        """The grid point that explains the timing best among those the physics allows.
+
+        Only points whose best mass is Hill-stable and not excluded by the
+        System's RV limits are ranked; None when there is none.
+        """
+        allowed = np.asarray(self.grid["best_allowed"])
+        if not np.any(allowed):
+            return None
+        row = self.grid[int(np.argmax(np.where(allowed, self.grid["delta_chi2_best"], -np.inf)))]
         return {name: row[name] for name in self.grid.colnames}
 
     def write(self, folder: "str | Path") -> list[Path]:
@@ -231,12 +244,13 @@ class PerturberMap:
             "grid_points": self.n_points,
             "delta_chi2": self.delta_chi2,
             "chi2_constant_period": self.chi2_constant,
-            "best_point": {
+            "best_point": None if best is None else {
                 "period_days": float(best["period"].to_value(u.day)),
                 "period_ratio": float((best["period"] / self.transit_period).decompose()),
                 "mass_mearth": float(best["best_mass"].to_value(u.Mearth)),
                 "delta_chi2_gain": float(best["delta_chi2_best"]),
                 "hill_stable": bool(best["hill_stable"]),
+                "rv_seen": None if best["rv_seen_best"] < 0 else bool(best["rv_seen_best"]),
             },
             "periods": [
                 {"period_days": float(r["period"].to_value(u.day)),
@@ -248,21 +262,6 @@ class PerturberMap:
                 for r in self.summary],
             "notes": list(self.notes),
         }
-
-
-def _integrate(job):
-    """One chunk of grid points: transit times of the transiting planet (picklable for processes)."""
-    masses, period, ecc, omega, inc, node, mean, t_end, dt, k, epochs = job
-    # one thread per worker: the executor already spreads chunks over the cores
-    return nbody.transit_times(masses, period, ecc, omega, inc, node, mean, t_end, dt=dt, planets=0,
-                               max_transits=k, epochs=epochs, threads=False)[:, 0]
-
-
-def _chunks(index, cost, n_chunks: int):
-    """Split grid points into chunks of about equal cost (dealt out in order of cost)."""
-    order = index[np.argsort(-cost)]
-    n_chunks = max(1, min(n_chunks, order.size))
-    return [order[j::n_chunks] for j in range(n_chunks)]
 
 
 def map_perturbers(table: TimingTable, system: System, options: PerturberMapOptions | None = None, *,
@@ -277,7 +276,8 @@ def map_perturbers(table: TimingTable, system: System, options: PerturberMapOpti
         Star mass, companion mass and orbit (period, eccentricity); RV
         limits when known.
     options : PerturberMapOptions, optional
-        The grid and thresholds (defaults: 500 periods over 0.3-10x, 4 phases).
+        The grid and thresholds (defaults: 500 log-spaced periods over
+        0.3-10x plus points around the resonances, 4 phases).
     executor : object with ``map``, optional
         Runs the chunks of grid points (default: a process pool over all
         cores).  Pass ``map``-able objects such as a dask client's adapter.
@@ -290,183 +290,112 @@ def map_perturbers(table: TimingTable, system: System, options: PerturberMapOpti
     -------
     PerturberMap
     """
-    from astropy.table import QTable
-    from tqdm.auto import tqdm
-
-    mask = np.isin(table.kind, ("transit", "primary"))
-    if mask.sum() < 5:
-        raise InputError(f"the perturber map needs at least 5 transit mid-times; the table has {mask.sum()}")
-    t = table.time[mask]
-    sigma = table.uncertainty[mask]
-    epoch = table.epoch[mask].astype(int)
-    m_star = system.star.need("mass", "the perturber map").to_value(u.Msun)
-    m_planet = system.companion.need("mass", "the perturber map (the transiting planet's mass)").to_value(u.Msun)
-    e_planet = float(system.orbit.eccentricity or 0.0)
-    w_planet = (system.orbit.omega.to_value(u.rad) if system.orbit.omega is not None else np.pi / 2)
-
-    # constant-period fit
-    line = weighted_line(epoch - epoch.min(), t, sigma)
-    design = np.column_stack([np.ones_like(t), epoch - epoch.min()])
-    wts = 1 / sigma
-    chi2_const = float(np.sum(((t - line(epoch - epoch.min())) * wts) ** 2))
-    p_transit = line.slope
-    e0 = int(epoch.min())
-    n_orbits = int(epoch.max() - e0) + 1
-
+    data = _TimingFit.of(table, system)
     options = replace(options or PerturberMapOptions(), **changes)
-    n_phases, eccentricity, delta_chi2 = options.n_phases, options.eccentricity, options.delta_chi2
-    max_chunk, reference_mass = options.max_chunk, options.reference_mass
-    grid_period = system.orbit.period if system.orbit.period is not None else p_transit * u.day
-    periods = options.period_grid(grid_period).to_value(u.day)
-    if np.any(~np.isfinite(periods)) or np.any(periods <= 0):
-        raise InputError("perturber periods must be positive and finite")
-    m_ref = u.Quantity(reference_mass, u.Msun).to_value(u.Msun)
-    phases = np.arange(n_phases) * 2 * np.pi / n_phases
-    pp, ph = (x.ravel() for x in np.meshgrid(periods, phases, indexing="ij"))
-    n = pp.size
-
-    # the engine's t = 0 is half an orbit before epoch e0's transit
-    m_transit = float(nbody.mean_anomaly_at_transit(e_planet, w_planet))
-    mean0 = m_transit - 2 * np.pi * 0.5                        # half an orbit before
-    masses = np.column_stack([np.full(n, m_star), np.full(n, m_planet), np.full(n, m_ref)])
-    period = np.column_stack([np.full(n, p_transit), pp])
-    ecc = np.column_stack([np.full(n, e_planet), np.full(n, eccentricity)])
-    omega = np.column_stack([np.full(n, w_planet), np.zeros(n)])
-    inc = np.full((n, 2), np.pi / 2)
-    node = np.zeros((n, 2))
-    mean = np.column_stack([np.full(n, mean0), ph])
-    t_end = n_orbits * p_transit + 0.5 * p_transit - 0.25 * p_transit
-
-    # Points whose orbits cross or that are Hill-unstable even at the reference mass are not integrated.
-    au_t, au_p = (((m_star + m_planet) * (x / YEAR_D) ** 2) ** (1 / 3) * u.AU for x in (p_transit, pp))
-    integrable = ~nbody.orbits_overlap(period, ecc)
-
-    def stable_with(mass):
-        """Gladman (1993) Hill stability of the pair with perturbers of ``mass`` (M☉)."""
-        return hill_stable(m_star * u.Msun, m_planet * u.Msun, au_t, mass * u.Msun, au_p)
-
-    integrable &= stable_with(m_ref)
-
-    todo = np.nonzero(integrable)[0]
-    step = np.full(n, np.nan)
-    step[todo] = nbody.default_step(period[todo], ecc[todo]) * nbody.STEPS_PER_ORBIT / MAP_STEPS_PER_ORBIT
-    workers = os.cpu_count() or 1
-    chunks = _chunks(todo, 1 / step[todo], max(4 * workers, int(np.ceil(todo.size / max_chunk))))
-    idx = epoch - e0
-    q, _ = np.linalg.qr(design * wts[:, None])
-
-    def off_line(v):
-        """Weighted residuals off the best line: (T₀, P) are eliminated exactly."""
-        return v - (v @ q) @ q.T
-
-    y_res = off_line((t * wts)[None, :])[0]
-
+    grid = _Grid.build(data, system, options)
     own_pool = None
     if executor is None:
         own_pool = executor = ProcessPoolExecutor(max_workers=os.cpu_count() or 1)
-
-    def run_pass(perturber_mass, label):
-        """Projected, weighted templates per unit mass of every integrable point at these masses."""
-        m = masses.copy()
-        m[:, 2] = perturber_mass
-        jobs = [(m[c], period[c], ecc[c], omega[c], inc[c], node[c], mean[c], t_end, step[c], n_orbits + 2,
-                 idx) for c in chunks]
-        results = list(tqdm(executor.map(_integrate, jobs), total=len(jobs), desc=f"perturber map ({label})",
-                            unit="chunk", disable=not progress))
-        times = np.full((n, n_orbits + 2), np.nan)
-        for c, r in zip(chunks, results):
-            times[c, :r.shape[1]] = r
-        template = times[:, idx] - (0.5 * p_transit + p_transit * idx)[None, :]   # the fit absorbs any line
-        good = integrable & np.all(np.isfinite(template), axis=1)
-        template[~good] = 0.0
-        return off_line(template * wts[None, :]) / perturber_mass[:, None], good
-
     try:
         # pass 1: the linear estimate from a reference-mass template
-        m1 = np.full(n, m_ref)
-        u1, ok = run_pass(m1, "reference mass")
+        m1 = np.full(grid.n, grid.m_ref)
+        u1, ok = _template_pass(grid, data, executor, m1, "reference mass", progress)
         dd = np.einsum("ij,ij->i", u1, u1)
-        dy = u1 @ y_res
+        dy = u1 @ data.y_res
         with np.errstate(divide="ignore", invalid="ignore"):
             s_hat = np.where(dd > 0, dy / dd, 0.0)
-        lin_max = np.clip(s_hat + np.sqrt(np.clip(s_hat, 0, None) ** 2 + delta_chi2 / np.where(dd > 0, dd, np.inf)),
-                          0, None)
+        lin_max = np.clip(s_hat + np.sqrt(np.clip(s_hat, 0, None) ** 2
+                                          + options.delta_chi2 / np.where(dd > 0, dd, np.inf)), 0, None)
         # pass 2: TTVs are not exactly linear in mass (the perturber also
         # shifts the mean motions, so the phase of a near-resonant signal
         # drifts): integrate again at the linear estimate of the largest
         # mass and interpolate the template per unit mass between the two.
-        m2 = np.clip(np.nan_to_num(lin_max, nan=m_ref), 2 * m_ref, 0.02 * m_star)
-        u2, ok2 = run_pass(m2, "at the mass limit")
+        m2 = np.clip(np.nan_to_num(lin_max, nan=grid.m_ref), 2 * grid.m_ref, 0.02 * grid.m_star)
+        u2, ok2 = _template_pass(grid, data, executor, m2, "at the mass limit", progress)
     finally:
         if own_pool is not None:
             own_pool.shutdown()
     linear_only = ok & ~ok2
     u2[linear_only] = u1[linear_only]
-    d = u2 - u1
-    # χ²(m) = |y − m u1 − m (m − m1)/(m2 − m1) d|² on a mass grid up to 1.5 m2
-    fractions = np.linspace(0.0, 1.5, 601)
-    mgrid = fractions[None, :] * m2[:, None]
-    alpha = mgrid
-    beta = mgrid * (mgrid - m1[:, None]) / (m2 - m1)[:, None]
-    yy = float(y_res @ y_res)
-    yu, yd = u1 @ y_res, d @ y_res
-    uu, ud, dd2 = (np.einsum("ij,ij->i", a, b) for a, b in ((u1, u1), (u1, d), (d, d)))
-    chi2 = (yy - 2 * alpha * yu[:, None] - 2 * beta * yd[:, None] + alpha ** 2 * uu[:, None]
-            + 2 * alpha * beta * ud[:, None] + beta ** 2 * dd2[:, None])
-    j_best = np.argmin(chi2, axis=1)
-    rows_ = np.arange(n)
-    chi2_best = chi2[rows_, j_best]
-    s_best = mgrid[rows_, j_best] / m_ref
-    above = (chi2 > chi2_const + delta_chi2) & (np.arange(fractions.size)[None, :] > j_best[:, None])
-    first = np.where(above.any(axis=1), np.argmax(above, axis=1), fractions.size - 1)
-    capped = ~above.any(axis=1)
-    s_max = mgrid[rows_, first] / m_ref
-    gain_best = np.where(ok, chi2_const - chi2_best, 0.0)
-    s_max = np.where(ok, s_max, np.nan)
-    s_best = np.where(ok, s_best, np.nan)
-    best_mass = s_best * m_ref * u.Msun
-    largest_mass = s_max * m_ref * u.Msun
+    best_mass, largest_mass, gain, capped = _chi2_profile(u1, u2, m1, m2, data, options.delta_chi2, ok)
+    table_ = _grid_table(grid, system, best_mass, largest_mass, gain, ok, capped, data.chi2_const)
+    summary = _summary(grid, table_, data.p_transit)
+    rv_limit = _rv_limit_mass(grid, system)
+    if rv_limit is not None:
+        summary["rv_limit_mass"] = rv_limit
+    return PerturberMap(table_, summary, data.chi2_const, options.delta_chi2, grid.n, data.p_transit * u.day,
+                        rv_limit, _notes(grid, data, ok, linear_only), start_time=data.start_time,
+                        transit_longitude=grid.w_planet + grid.m_transit)
 
-    # RV signature and Hill stability at the largest mass
-    k = radial_velocity_semi_amplitude(np.nan_to_num(largest_mass), m_star * u.Msun, pp * u.day, eccentricity)
+
+def _rv_seen(grid: _Grid, system: System, mass):
+    """(K, seen) of perturbers of ``mass``: seen 1/0 by the System's RV limits, −1 without them."""
+    k = radial_velocity_semi_amplitude(np.nan_to_num(mass), grid.m_star * u.Msun, grid.pp * u.day,
+                                       grid.eccentricity)
+    visible, _, _ = rv_visibility(k, grid.pp * u.day, system.radial_velocity)
+    return k, (np.full(grid.n, -1, int) if visible is None else visible.astype(int))
+
+
+def _rv_limit_mass(grid: _Grid, system: System):
+    """Per period, the mass whose RV change over the baseline equals the RV threshold (None without RVs)."""
     rv = system.radial_velocity
-    seen = np.full(n, -1, int)
-    rv_limit = None
-    visible, _, _ = rv_visibility(k, pp * u.day, rv)
-    if visible is not None:
-        seen = visible.astype(int)
-        unit_k = radial_velocity_semi_amplitude(1 * u.Mearth, m_star * u.Msun, periods * u.day, eccentricity)
-        rv_limit = (rv_threshold_semi_amplitude(periods * u.day, rv) / unit_k).decompose().value * u.Mearth
-    stable = integrable & stable_with(np.nan_to_num(largest_mass.to_value(u.Msun)))
+    visible, _, _ = rv_visibility(np.zeros(1) * u.m / u.s, grid.periods[:1] * u.day, rv)
+    if visible is None:
+        return None
+    unit_k = radial_velocity_semi_amplitude(1 * u.Mearth, grid.m_star * u.Msun, grid.periods * u.day,
+                                            grid.eccentricity)
+    return (rv_threshold_semi_amplitude(grid.periods * u.day, rv) / unit_k).decompose().value * u.Mearth
 
-    grid = QTable()
-    grid["period"] = pp * u.day
-    grid["phase"] = ph * u.rad
-    grid["best_mass"] = best_mass.to(u.Mearth)
-    grid["largest_mass"] = largest_mass.to(u.Mearth)
-    grid["chi2_best"] = np.where(ok, chi2_const - gain_best, np.nan)
-    grid["delta_chi2_best"] = np.where(ok, gain_best, 0.0)
-    grid["rv_semi_amplitude"] = k.to(u.m / u.s)
-    grid["rv_seen"] = seen
-    grid["rv_seen"].description = "1: RVs would already show it; 0: they would not; -1: no RV limits given"
-    grid["hill_stable"] = stable
-    grid["integrated"] = ok
-    grid["largest_mass_is_lower_bound"] = ok & capped
+
+def _grid_table(grid: _Grid, system: System, best_mass, largest_mass, gain, ok, capped, chi2_const):
+    """One row per (period, phase), with RV and Hill checks at the largest and at the best mass."""
+    from astropy.table import QTable
+
+    k, seen = _rv_seen(grid, system, largest_mass)
+    _, seen_best = _rv_seen(grid, system, best_mass)
+    msun = (lambda q: np.nan_to_num(q.to_value(u.Msun)))
+    stable = grid.integrable & grid.stable_with(msun(largest_mass))
+    allowed = ok & (seen_best != 1) & grid.integrable & grid.stable_with(msun(best_mass))
+    table = QTable()
+    table["period"] = grid.pp * u.day
+    table["phase"] = grid.ph * u.rad
+    table["best_mass"] = best_mass.to(u.Mearth)
+    table["largest_mass"] = largest_mass.to(u.Mearth)
+    table["chi2_best"] = np.where(ok, chi2_const - gain, np.nan)
+    table["delta_chi2_best"] = np.where(ok, gain, 0.0)
+    table["rv_semi_amplitude"] = k.to(u.m / u.s)
+    table["rv_seen"] = seen
+    table["rv_seen"].description = "1: RVs would already show it; 0: they would not; -1: no RV limits given"
+    table["hill_stable"] = stable
+    table["rv_seen_best"] = seen_best
+    table["rv_seen_best"].description = "rv_seen at the best mass"
+    table["best_allowed"] = allowed
+    table["best_allowed"].description = ("the best mass is Hill-stable and not excluded by the RV limits: "
+                                         "only such points are ranked")
+    table["integrated"] = ok
+    table["largest_mass_is_lower_bound"] = ok & capped
+    return table
+
+
+def _summary(grid: _Grid, table, p_transit: float):
+    """One row per period: the best allowed phase and the most permissive largest mass."""
+    from astropy.table import QTable
 
     rows = []
-    per = len(phases)
-    for i, p in enumerate(periods):
-        sl = slice(i * per, (i + 1) * per)
-        g = grid[sl]
+    per = grid.phases.size
+    for i, p in enumerate(grid.periods):
+        g = table[i * per:(i + 1) * per]
         good = np.asarray(g["integrated"])
         if not np.any(good):
-            rows.append((p, np.nan, np.nan, 0.0, np.nan, -1, False, False))
+            rows.append((p, np.nan, np.nan, 0.0, np.nan, -1, False, False, False))
             continue
-        j_best = int(np.nanargmax(np.where(good, g["delta_chi2_best"], -np.inf)))
+        allowed = np.asarray(g["best_allowed"])
+        pick = allowed if np.any(allowed) else good
+        j_best = int(np.nanargmax(np.where(pick, g["delta_chi2_best"], -np.inf)))
         j_hi = int(np.nanargmax(np.where(good, g["largest_mass"].value, -np.inf)))
         rows.append((p, g["best_mass"][j_best].value, g["largest_mass"][j_hi].value,
                      float(g["delta_chi2_best"][j_best]), g["rv_semi_amplitude"][j_hi].value,
-                     int(g["rv_seen"][j_hi]), bool(g["hill_stable"][j_hi]), True))
+                     int(g["rv_seen"][j_hi]), bool(g["hill_stable"][j_hi]), bool(np.any(allowed)), True))
     cols = list(zip(*rows))
     summary = QTable()
     summary["period"] = np.array(cols[0]) * u.day
@@ -476,17 +405,26 @@ def map_perturbers(table: TimingTable, system: System, options: PerturberMapOpti
     summary["delta_chi2_best"] = np.array(cols[3])
     summary["rv_semi_amplitude"] = np.array(cols[4]) * u.m / u.s
     summary["rv_seen"] = np.array(cols[5], int)
-    summary["rv_seen"].description = grid["rv_seen"].description
+    summary["rv_seen"].description = table["rv_seen"].description
     summary["hill_stable"] = np.array(cols[6], bool)
-    summary["integrated"] = np.array(cols[7], bool)
-    if rv_limit is not None:
-        summary["rv_limit_mass"] = rv_limit
-    notes = [f"{int((~integrable).sum())} of {n} grid points are Hill-unstable or crossing even at the "
-             f"reference mass and were not integrated",
-             f"{int((integrable & ~ok).sum())} integrated points became unbound" if np.any(integrable & ~ok)
-             else "no integrated point became unbound",
-             f"{int(linear_only.sum())} points became unbound at their mass limit and keep the linear "
-             f"estimate" if np.any(linear_only) else "every point was re-integrated at its mass limit",
-             f"{int((~mask).sum())} non-transit rows were left out" if np.any(~mask) else "all rows are transits"]
-    return PerturberMap(grid, summary, chi2_const, delta_chi2, n, p_transit * u.day, rv_limit, notes,
-                        start_time=line.intercept - 0.5 * p_transit, transit_longitude=w_planet + m_transit)
+    summary["best_allowed"] = np.array(cols[7], bool)
+    summary["integrated"] = np.array(cols[8], bool)
+    return summary
+
+
+def _notes(grid: _Grid, data: _TimingFit, ok, linear_only) -> list[str]:
+    """What the map did, in words (the report and the CLI print them)."""
+    integrable, n, mask = grid.integrable, grid.n, data.mask
+    extra = grid.periods.size - grid.n_log
+    return [f"{int((~integrable).sum())} of {n} grid points are Hill-unstable or crossing even at the "
+            f"reference mass and were not integrated",
+            f"{int((integrable & ~ok).sum())} integrated points became unbound" if np.any(integrable & ~ok)
+            else "no integrated point became unbound",
+            f"{int(linear_only.sum())} points became unbound at their mass limit and keep the linear "
+            f"estimate" if np.any(linear_only) else "every point was re-integrated at its mass limit",
+            f"{int((~mask).sum())} non-transit rows were left out" if np.any(~mask) else "all rows are transits",
+            "the best point is ranked only among points whose best mass is Hill-stable and not excluded by "
+            "the RV limits",
+            f"{grid.n_log} periods evenly spaced in log period as asked, plus {extra} packed around "
+            f"resonances ({grid.periods.size} in all)" if grid.n_log else
+            f"{grid.periods.size} periods given explicitly"]

@@ -1,9 +1,9 @@
-"""The same corrected Wisdom–Holman map as :mod:`ttvkit.physics.nbody`, compiled per system with numba.
+"""The corrected Wisdom–Holman map of :mod:`ttvkit.physics.nbody`, compiled per system with numba.
 
-The numpy engine pays numpy's per-call overhead at every step, which
-dominates for small batches: one system over 10⁴ orbits takes tens of
-seconds, too slow for a fit or a sampler that evaluates one system at a
-time.  This module is the identical algorithm -- Jacobi coordinates, the
+(A batched numpy engine of the same map was removed: it paid numpy's
+per-call overhead at every step, so it was slower than this one except
+for batches of hundreds of systems, and nothing in the library used it.)
+This module is the algorithm -- Jacobi coordinates, the
 kick–drift–kick step with the modified kick, the fitted symplectic
 corrector, detection of g = x·vx + y·vy changing sign from − to + with the
 planet in front, Newton refinement from the synchronised start of the step
@@ -12,9 +12,9 @@ bodies for one system and compiled with numba (a general-purpose JIT
 compiler for numpy code; Lam, Pitrou & Seibert 2015), with the loop over
 systems in the compiled code too (``prange``: threads over systems).
 
-Differences from the numpy engine: every system keeps its own step, and only
-the transits whose running index is asked for are refined (the others are
-only counted), which is most of the saving for sparse data.
+Every system keeps its own step, and only the transits whose running index
+is asked for are refined (the others are only counted), which is most of
+the saving for sparse data.
 """
 
 from __future__ import annotations
@@ -194,7 +194,7 @@ def _g_rel(r, v, m, cum, planet, wx, wv):
 
 @njit(cache=True)
 def _newton(r, v, m, cum, planet, mu_e, wx, wv):
-    """g / (dg/dt) of ``planet`` with the two-body acceleration (as the numpy engine)."""
+    """g / (dg/dt) of ``planet`` with the two-body acceleration."""
     _from_jacobi(r, m, cum, wx)
     _from_jacobi(v, m, cum, wv)
     px = wx[planet + 1, 0] - wx[0, 0]
@@ -206,6 +206,36 @@ def _newton(r, v, m, cum, planet, mu_e, wx, wv):
     k = -mu_e / (d * d * d)
     dg = vx * vx + vy * vy + px * k * px + py * k * py
     return (px * vx + py * vy) / dg
+
+
+@njit(cache=True)
+def _refine(p, tau, h, r0, vs, m, gm, cum, mu, corrector, inv_k, inv_v, wx, wv, wa, wdx, wp, a, da, rt, vt):
+    """Time of planet ``p``'s transit within the step from the synchronised state (r0, vs).
+
+    Newton on g over a map step of trial length τ with plain kicks; with the
+    corrector, back to real coordinates at the transit and one more Newton
+    step.  Leaves the refined barycentric state in ``wx``.
+    """
+    mu_e = _G * (m[0] + m[p + 1])
+    for _ in range(40):
+        rt[:, :] = r0
+        vt[:, :] = vs
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _drift(rt, vt, mu, tau)
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        delta = _newton(rt, vt, m, cum, p, mu_e, wx, wv)
+        tau = min(max(tau - delta, 0.0), h)
+        if not abs(delta) >= 1e-10:
+            break
+    if corrector:
+        rt[:, :] = r0
+        vt[:, :] = vs
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _drift(rt, vt, mu, tau)
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _apply(inv_k, inv_v, h, rt, vt, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        tau = tau - _newton(rt, vt, m, cum, p, mu_e, wx, wv)
+    return tau
 
 
 @njit(cache=True)
@@ -273,37 +303,20 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
         if hits == 0:
             continue
         # refine from the synchronised start of the step: Newton on a map step of
-        # trial length τ with plain kicks (as the numpy engine)
+        # trial length τ with plain kicks
         vs = v0.copy()
         _kick(r0, vs, -0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
         for p in range(n):
             if not hit[p]:
                 continue
-            mu_e = _G * (m[0] + m[p + 1])
-            tau = tau0[p]
-            for _ in range(40):
-                rt[:, :] = r0
-                vt[:, :] = vs
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                _drift(rt, vt, mu, tau)
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                delta = _newton(rt, vt, m, cum, p, mu_e, wx, wv)
-                tau = min(max(tau - delta, 0.0), h)
-                if not abs(delta) >= 1e-10:
-                    break
-            if corrector:
-                # back to real coordinates at the transit, then one more Newton step
-                rt[:, :] = r0
-                vt[:, :] = vs
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                _drift(rt, vt, mu, tau)
-                _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                _apply(inv_k, inv_v, h, rt, vt, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-                tau = tau - _newton(rt, vt, m, cum, p, mu_e, wx, wv)
-            t = step * h + tau
+            t = step * h + _refine(p, tau0[p], h, r0, vs, m, gm, cum, mu, corrector, inv_k, inv_v,
+                                   wx, wv, wa, wdx, wp, a, da, rt, vt)
             if light_time:            # the star's barycentric z (wx holds the refined state)
                 t -= wx[0, 2] / C_AU_PER_DAY
             out[p, count[p] - 1] = t
+    _kick(r, v, -0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)     # synchronise the final state
+    if corrector:
+        _apply(inv_k, inv_v, h, r, v, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
 
 
 def _batch(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector, fwd_k, fwd_v, inv_k, inv_v,
@@ -319,8 +332,11 @@ _PARALLEL = threading.Lock()
 
 
 def integrate(masses, r, v, h, n_steps, wanted, want_epoch, light_time: bool, corrector: bool,
-              forward, inverse, kappa: float, threads: bool = True) -> np.ndarray:
+              forward, inverse, kappa: float, threads: bool = True) -> tuple:
     """Transit times [S, N, K] of a batch from Jacobi states (already sorted inner to outer).
+
+    Returns the times and the final Jacobi positions and velocities [S, N, 3]
+    (real coordinates, synchronised; NaN for a system that went unbound).
 
     ``forward`` and ``inverse`` are the corrector's merged (kind, value/h)
     sequences; ``want_epoch[K]`` says which running transit indices to refine.
@@ -331,7 +347,8 @@ def integrate(masses, r, v, h, n_steps, wanted, want_epoch, light_time: bool, co
     fv = np.array([x for _, x in forward], float)
     ik = np.array([0 if k == "d" else 1 for k, _ in inverse], np.int64)
     iv = np.array([x for _, x in inverse], float)
-    args = (np.ascontiguousarray(masses, float), np.array(r, float), np.array(v, float),
+    r_end, v_end = np.array(r, float), np.array(v, float)      # integrated in place
+    args = (np.ascontiguousarray(masses, float), r_end, v_end,
             np.ascontiguousarray(h, float), np.ascontiguousarray(n_steps, np.int64),
             np.ascontiguousarray(wanted, np.bool_), np.ascontiguousarray(want_epoch, np.bool_),
             bool(light_time), bool(corrector), fk, fv, ik, iv, float(kappa), out)
@@ -344,4 +361,4 @@ def integrate(masses, r, v, h, n_steps, wanted, want_epoch, light_time: bool, co
             _PARALLEL.release()
     else:
         _batch_serial(*args)
-    return out
+    return out, r_end, v_end

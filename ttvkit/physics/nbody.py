@@ -8,11 +8,10 @@ Jacobi-frame acceleration less its Kepler part, the way WHFast (Rein & Tamayo
 2015, MNRAS 452, 376) computes it.  (A democratic-heliocentric splitting was
 tried first: its star–planet splitting error left 1–8 s offsets against
 DOP853 at P/20, where Jacobi coordinates integrate a lone planet exactly.)
-Two engines run the same map: ``engine="numpy"`` is numpy over arrays
-shaped ``[system, planet, 3]`` -- one call integrates a whole batch of
-systems, with no Python loop over systems (the loop is over steps) -- and
-``engine="compiled"`` (the default, :mod:`._nbody_compiled`) is the same
-algorithm compiled per system with numba, fast for any batch size.
+The map runs compiled per system with numba (:mod:`._nbody_compiled`), a
+batch of systems on threads; :func:`reference_transit_times` is the plain
+reference (scipy's DOP853).  Elements may be heliocentric or Jacobi
+(``frame=``).
 
 Transits: after each step the sky-plane function g = x·vx + y·vy of each
 planet relative to the star (observer on +z) is checked for a sign change
@@ -47,11 +46,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from ttvkit.constants import C_AU_PER_DAY
 from ttvkit.errors import InputError
 
 __all__ = ["GAUSS_G", "elements_to_cartesian", "transit_times", "reference_transit_times", "default_step",
-           "energy", "orbits_overlap", "mean_anomaly_at_transit", "STEPS_PER_ORBIT"]
+           "energy", "orbits_overlap", "mean_anomaly_at_transit", "STEPS_PER_ORBIT", "FRAMES"]
 
 #: G in AU³ / (M☉ d²) (IAU k = 0.01720209895, k²).
 GAUSS_G = 0.01720209895 ** 2
@@ -117,37 +115,6 @@ def elements_to_cartesian(mu, period, ecc, omega, inc, node, mean_anomaly):
     return pos, vel
 
 
-def _kepler_drift(pos, vel, mu, h):
-    """Advance two-body orbits by ``h`` with Gauss's f and g functions (elliptic orbits)."""
-    r0 = np.linalg.norm(pos, axis=-1)
-    v2 = np.einsum("...i,...i", vel, vel)
-    rv = np.einsum("...i,...i", pos, vel)
-    inv_a = 2.0 / r0 - v2 / mu
-    inv_a = np.where(inv_a > 0, inv_a, np.nan)   # an orbit became unbound: that system goes NaN
-    a = 1.0 / inv_a
-    n = np.sqrt(mu * inv_a ** 3)
-    c = 1.0 - r0 * inv_a                     # e cos E0
-    s = rv / np.sqrt(mu * a)                 # e sin E0
-    target = n * h
-    x = target + s * (1 - np.cos(target))    # a good start for small steps
-    for _ in range(30):  # Newton on x − c sin x + s (1 − cos x) − n h = 0 (Danby 1988, ch. 6)
-        sx, cx = np.sin(x), np.cos(x)
-        fun = x - c * sx + s * (1 - cx) - target
-        step = fun / (1 - c * cx + s * sx)
-        x = x - step
-        if not np.nanmax(np.abs(step), initial=0.0) >= 1e-14:
-            break
-    sx, cx = np.sin(x), np.cos(x)
-    f = 1 - a / r0 * (1 - cx)
-    g = h - (x - sx) / n
-    r = a + (r0 - a) * cx + rv * np.sqrt(a / mu) * sx
-    fdot = -np.sqrt(mu * a) / (r * r0) * sx
-    gdot = 1 - a / r * (1 - cx)
-    new_pos = f[..., None] * pos + g[..., None] * vel
-    new_vel = fdot[..., None] * pos + gdot[..., None] * vel
-    return new_pos, new_vel
-
-
 class _Jacobi:
     """Jacobi coordinates of a batch (planets ordered inner to outer)."""
 
@@ -171,48 +138,6 @@ class _Jacobi:
         x[:, 0] = com
         return x
 
-    def accel_to_jacobi(self, a):
-        mean = np.cumsum(self.m[..., None] * a, axis=1) / self.cum[..., None]
-        return a[:, 1:] - mean[:, :-1]
-
-
-def _interaction(jac, r, along: bool = False):
-    """Jacobi-frame accelerations less their Kepler part (as WHFast does).
-
-    With ``along`` also returns their derivative along the displacement
-    δr = a (the Hessian of the interaction potential applied to the
-    acceleration, computed analytically from the same pair separations),
-    which the modified kick needs.
-    """
-    x = jac.from_jacobi(r)
-    m = GAUSS_G * jac.m
-    nb = x.shape[1]
-    acc = np.zeros_like(x)
-    pairs = []
-    for i in range(nb - 1):          # a loop over the few bodies, vectorised over systems
-        for j in range(i + 1, nb):
-            d = x[:, j] - x[:, i]
-            inv_r2 = 1.0 / np.einsum("sk,sk->s", d, d)
-            inv_r3 = inv_r2 * np.sqrt(inv_r2)
-            acc[:, i] += (m[:, j] * inv_r3)[:, None] * d
-            acc[:, j] -= (m[:, i] * inv_r3)[:, None] * d
-            pairs.append((i, j, d, inv_r2, inv_r3))
-    rn2 = np.einsum("snk,snk->sn", r, r)
-    kep = jac.mu / (rn2 * np.sqrt(rn2))
-    a = jac.accel_to_jacobi(acc) + kep[..., None] * r
-    if not along:
-        return a
-    dx = jac.from_jacobi(a)
-    jerk = np.zeros_like(x)
-    for i, j, d, inv_r2, inv_r3 in pairs:
-        dd = dx[:, j] - dx[:, i]
-        t = inv_r3[:, None] * (dd - (3 * np.einsum("sk,sk->s", d, dd) * inv_r2)[:, None] * d)
-        jerk[:, i] += m[:, j, None] * t
-        jerk[:, j] -= m[:, i, None] * t
-    ra = np.einsum("snk,snk->sn", r, a)
-    da = jac.accel_to_jacobi(jerk) + kep[..., None] * (a - (3 * ra / rn2)[..., None] * r)
-    return a, da
-
 
 #: The modified kick's coefficient: kicking with H_I + (h²/24){H_I,{H_I,H_K}}
 #: cancels the O(ε²h²) term left by the kick–drift–kick map and its
@@ -220,17 +145,6 @@ def _interaction(jac, r, along: bool = False):
 #: {H_I,{H_I,H_K}} = Σ m'|a|², its gradient adds (h²/12)·(∂a/∂r)·a to the
 #: kick acceleration.
 _KAPPA = 1 / 12
-
-
-def _kick(jac, r, v, h, step: float | None = None):
-    """Interaction kick by ``h``; with ``step`` the modified kick of a map of that step."""
-    if step is None:
-        a = _interaction(jac, r)
-    else:
-        a, da = _interaction(jac, r, along=True)
-        a = a + (_KAPPA * step * step) * da
-    h = np.asarray(h)
-    return v + (h[..., None] if h.ndim else h) * a
 
 
 def _corrector_coefficients(pairs: int = 4, theta_max: float = 3.0, exact: int = 3) -> list[tuple[float, float]]:
@@ -288,25 +202,6 @@ def _corrector_ops(inverse: bool) -> list[tuple[str, float]]:
     return merged
 
 
-def _corrector(jac, r, v, h: float, inverse: bool):
-    """Map real coordinates to the map's own (``inverse=False``) or back."""
-    for kind, x in _corrector_ops(inverse):
-        if kind == "d":
-            r, v = _kepler_drift(r, v, jac.mu, x * h)
-        else:
-            v = _kick(jac, r, v, x * h)
-    return r, v
-
-
-def _map_step(jac, r, v, h, step=None):
-    """One Wisdom–Holman kick–drift–kick step; ``h`` scalar or shaped [S, 1]."""
-    half = 0.5 * np.asarray(h)
-    v = _kick(jac, r, v, half, step)
-    r, v = _kepler_drift(r, v, jac.mu, h)
-    v = _kick(jac, r, v, half, step)
-    return r, v
-
-
 #: Steps per inner orbit (the usual P/20; with the corrector and the modified
 #: kick it keeps 500 orbits within 1 s of DOP853, measured).
 STEPS_PER_ORBIT = 20
@@ -353,10 +248,35 @@ def default_step(period, ecc) -> np.ndarray:
     return h
 
 
-def _setup(masses, period, ecc, omega, inc, node, mean_anomaly):
-    """Barycentric positions and velocities [S, B, 3] from heliocentric elements."""
+FRAMES = ("heliocentric", "jacobi")
+
+
+def _setup(masses, period, ecc, omega, inc, node, mean_anomaly, frame: str = "heliocentric"):
+    """Barycentric positions and velocities [S, B, 3] from osculating elements.
+
+    ``frame="heliocentric"``: each planet's elements are relative to the
+    star with μ = G(M_* + m_i).  ``frame="jacobi"``: Jacobi elements, each
+    planet (in order of period) relative to the centre of mass of the star
+    and the planets inside it, with μ_i = G(M_* + m_1 + … + m_i) -- the
+    convention of the Jacobi elements of Agol et al. (2021, PSJ 2, 1).
+    """
+    if frame not in FRAMES:
+        raise InputError(f"unknown frame {frame!r}: use 'heliocentric' or 'jacobi'")
     ms = masses[:, :1]
     mp = masses[:, 1:]
+    if frame == "jacobi":
+        order = np.argsort(period, axis=1)
+        els = [np.take_along_axis(np.asarray(e, float), order, axis=1)
+               for e in (period, ecc, omega, inc, node, mean_anomaly)]
+        sorted_m = np.concatenate([ms, np.take_along_axis(mp, order, axis=1)], axis=1)
+        jac = _Jacobi(sorted_m)
+        r, v = elements_to_cartesian(jac.mu, *els)
+        xs, us = jac.from_jacobi(r), jac.from_jacobi(v)
+        x, u = np.empty_like(xs), np.empty_like(us)
+        x[:, 0], u[:, 0] = xs[:, 0], us[:, 0]
+        rows = np.arange(masses.shape[0])[:, None]
+        x[rows, order + 1], u[rows, order + 1] = xs[:, 1:], us[:, 1:]
+        return x, u
     q, v = elements_to_cartesian(GAUSS_G * (ms + mp), period, ecc, omega, inc, node, mean_anomaly)
     total = masses.sum(axis=1, keepdims=True)
     x_star = -np.einsum("sn,snk->sk", mp, q) / total
@@ -376,10 +296,25 @@ def energy(x, u, masses) -> np.ndarray:
     return kin - GAUSS_G * np.sum(pair / r[:, iu[0], iu[1]], axis=1)
 
 
+def _wanted(shape, order, planets, epochs, k):
+    """Which planets (Jacobi order) and which running transit indices to time."""
+    wanted = np.ones(shape, bool)
+    if planets is not None:
+        chosen = np.zeros(shape, bool)
+        chosen[:, np.atleast_1d(planets)] = True
+        wanted = np.take_along_axis(chosen, order, axis=1)
+    want_epoch = np.ones(k, bool)
+    if epochs is not None:
+        epochs = np.asarray(epochs, int)
+        want_epoch[:] = False
+        want_epoch[epochs[(epochs >= 0) & (epochs < k)]] = True
+    return wanted, want_epoch
+
+
 def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: float, dt=None,
                   light_time: bool = False, max_transits: int | None = None, return_state: bool = False,
-                  corrector: bool = True, planets=None, epochs=None, engine: str = "compiled",
-                  threads: bool = True):
+                  corrector: bool = True, planets=None, epochs=None, threads: bool = True,
+                  frame: str = "heliocentric"):
     """Transit (minimum sky-separation) times of every planet of every system.
 
     Parameters
@@ -387,36 +322,33 @@ def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: fl
     masses : array [S, N+1]
         Star first (M☉).
     period, ecc, omega, inc, node, mean_anomaly : arrays [S, N]
-        Heliocentric osculating elements at t = 0 (days, radians).
+        Osculating elements at t = 0 (days, radians), in ``frame``.
     t_end : float
         Integrate from 0 to ``t_end`` (days).
     dt : float or array [S], optional
-        Step (default :func:`default_step`).  The compiled engine keeps each
-        system's own step; the numpy engine uses one common step, the
-        smallest of the batch.
+        Step per system (default :func:`default_step`).
     light_time : bool
         Add the light-travel time of the star's barycentric motion.
     max_transits : int, optional
         Size of the output's last axis.
+    return_state : bool
+        Also return the final (barycentric positions, velocities, masses
+        sorted as integrated, time reached) for energy checks.
     corrector : bool
-        Apply the third-order symplectic corrector (default): real
-        coordinates are mapped to the map's own at the start and back at
-        every transit, which removes the O(εh²) mean-motion error.
+        Apply the symplectic corrector (default): real coordinates are
+        mapped to the map's own at the start and back at every transit,
+        which removes the O(εh²) mean-motion error.
     planets : int or sequence of int, optional
         Only these planets' transits are timed (the others are NaN); by
         default all.  Timing costs a refinement per transit.
     epochs : sequence of int, optional
         Running transit indices (0 the first transit after t = 0) to time;
-        the others are NaN.  The compiled engine only counts the transits
-        not asked for, which saves most of the cost for sparse data.
-    engine : {"compiled", "numpy"}
-        ``"compiled"`` (default): the map compiled per system with numba
-        (:mod:`ttvkit.physics._nbody_compiled`), fast for any batch size;
-        ``"numpy"``: the same map over whole batches in numpy, whose cost is
-        per step whatever the batch (fast only for hundreds of systems).
-        Both agree to far below the map's own error (tested).
+        the others are only counted and are NaN, which saves most of the
+        cost for sparse data.
     threads : bool
         Let the compiled engine run systems on several threads.
+    frame : {"heliocentric", "jacobi"}
+        The coordinates the elements are osculating in (see :func:`_setup`).
 
     Returns
     -------
@@ -425,145 +357,37 @@ def transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: fl
         NaN, and so is every planet of a system in which an orbit became
         unbound (a close encounter).
     """
+    from ttvkit.physics import _nbody_compiled
+
     masses = _check(masses, period, ecc)
     els = [np.asarray(x, float) for x in (period, ecc, omega, inc, node, mean_anomaly)]
+    x, u = _setup(masses, *els, frame=frame)
     order = np.argsort(els[0], axis=1)                     # Jacobi: inner planet first
-    els = [np.take_along_axis(e, order, axis=1) for e in els]
+    rows = np.arange(masses.shape[0])[:, None]
+    x = np.concatenate([x[:, :1], x[rows, order + 1]], axis=1)
+    u = np.concatenate([u[:, :1], u[rows, order + 1]], axis=1)
     masses = np.concatenate([masses[:, :1], np.take_along_axis(masses[:, 1:], order, axis=1)], axis=1)
-    x, u = _setup(masses, *els)
+    period_sorted = np.take_along_axis(els[0], order, axis=1)
     jac = _Jacobi(masses)
     r, v = jac.to_jacobi(x), jac.to_jacobi(u)
-    mp = masses[:, 1:]
     k = max_transits or int(np.ceil(t_end / np.min(els[0]))) + 2
-    wanted = np.ones(mp.shape, bool)                      # which planets to time (Jacobi order)
-    if planets is not None:
-        chosen = np.zeros(mp.shape, bool)
-        chosen[:, np.atleast_1d(planets)] = True
-        wanted = np.take_along_axis(chosen, order, axis=1)
-    want_epoch = np.ones(k, bool)
-    if epochs is not None:
-        epochs = np.asarray(epochs, int)
-        want_epoch[:] = False
-        want_epoch[epochs[(epochs >= 0) & (epochs < k)]] = True
-    if engine == "compiled":
-        if return_state:
-            raise ValueError("return_state needs engine='numpy'")
-        from ttvkit.physics import _nbody_compiled
-
-        hs = default_step(els[0], els[1]) if dt is None else np.broadcast_to(np.asarray(dt, float),
-                                                                              (masses.shape[0],))
-        out = _nbody_compiled.integrate(masses, r, v, hs, np.ceil(t_end / hs).astype(int), wanted, want_epoch,
-                                        light_time, corrector, _corrector_ops(False), _corrector_ops(True),
-                                        _KAPPA, threads=threads)
-        out[out > t_end] = np.nan                 # the last step may run past t_end
-        return np.take_along_axis(out, np.argsort(order, axis=1)[..., None], axis=1)
-    if engine != "numpy":
-        raise ValueError(f"unknown engine {engine!r}: use 'compiled' or 'numpy'")
-    h = float(np.min(default_step(els[0], els[1]) if dt is None else np.atleast_1d(dt)))
-    if corrector:
-        r, v = _corrector(jac, r, v, h, inverse=False)
-    steps = int(np.ceil(t_end / h))
-    out = np.full(mp.shape + (k,), np.nan)
-    count = np.zeros(mp.shape, int)
-
-    def relative(r_, v_):
-        """Star-to-planet positions and velocities (the sky plane is x, y)."""
-        xb, ub = jac.from_jacobi(r_), jac.from_jacobi(v_)
-        return xb[:, 1:] - xb[:, :1], ub[:, 1:] - ub[:, :1]
-
-    def g_of(pos, vel):
-        return pos[..., 0] * vel[..., 0] + pos[..., 1] * vel[..., 1]
-
-    def refine(pending):
-        """Newton on g(τ) for a batch of detected transits, all at once.
-
-        Each transit's whole system is advanced from the start of its step
-        by one map step of length τ (every pull kept); the batch spans many
-        steps so the per-call cost of numpy is paid once for all of them.
-        """
-        s_idx, n_idx, start, rs, vs, tau = (np.concatenate(c) for c in zip(*pending))
-        sub = _Jacobi(masses[s_idx])
-        rows = np.arange(s_idx.size)
-        mu_e = GAUSS_G * (masses[s_idx, 0] + mp[s_idx, n_idx])
-
-        def newton(rt, vt):
-            xb, ub = sub.from_jacobi(rt), sub.from_jacobi(vt)
-            pos = xb[rows, n_idx + 1] - xb[rows, 0]
-            vel = ub[rows, n_idx + 1] - ub[rows, 0]
-            acc = -mu_e[:, None] * pos / (np.linalg.norm(pos, axis=-1) ** 3)[:, None]
-            dg = vel[:, 0] ** 2 + vel[:, 1] ** 2 + pos[:, 0] * acc[:, 0] + pos[:, 1] * acc[:, 1]
-            return g_of(pos, vel) / dg, xb
-
-        vs = _kick(sub, rs, vs, -0.5 * h, h)                  # synchronise the steps' starts
-        for _ in range(40):
-            delta, xb = newton(*_map_step(sub, rs, vs, tau[:, None]))
-            tau = np.clip(tau - delta, 0.0, h)
-            if not np.nanmax(np.abs(delta), initial=0.0) >= 1e-10:
-                break
-        if corrector:
-            # Back to real coordinates at the transit, then one more Newton
-            # step: the corrector moves the state by O(εh²), so one step
-            # converges to far below 1e-10 d.
-            delta, xb = newton(*_corrector(sub, *_map_step(sub, rs, vs, tau[:, None]), h, inverse=True))
-            tau = tau - delta
-        times = start + tau
-        if light_time:  # the star's barycentric z: light from it arrives later when z < 0
-            times = times - xb[rows, 0, 2] / C_AU_PER_DAY
-        key = s_idx * mp.shape[1] + n_idx                   # chronological within each planet
-        order_ = np.argsort(key, kind="stable")
-        sorted_key = key[order_]
-        first = np.searchsorted(sorted_key, sorted_key, side="left")
-        rank = np.empty_like(key)
-        rank[order_] = np.arange(key.size) - first
-        slot = count[s_idx, n_idx] + rank
-        ok = slot < k
-        out[s_idx[ok], n_idx[ok], slot[ok]] = times[ok]
-        np.add.at(count, (s_idx, n_idx), 1)
-
-    # Leapfrog with the half kicks of consecutive steps merged: the state
-    # after each drift carries velocities half a kick behind, which is
-    # ample to detect a sign change of g; the refinement restarts from a
-    # synchronised state.  Detected transits are refined in batches.
-    q, qv = relative(r, v)
-    g_old = g_of(q, qv)
-    v = _kick(jac, r, v, 0.5 * h, h)
-    pending, n_pending = [], 0
-    batch = max(256, 4 * masses.shape[0])
-    for step in range(steps):
-        r0, v0 = r, v                                       # v0 is half a kick ahead of r0
-        r, v = _kepler_drift(r, v, jac.mu, h)
-        q, qv = relative(r, v)
-        g_new = g_of(q, qv)
-        v = _kick(jac, r, v, h, h)
-        hit = (g_old < 0) & (g_new >= 0) & (q[..., 2] > 0) & wanted
-        if np.any(hit):
-            s_idx, n_idx = np.nonzero(hit)
-            go, gn = g_old[s_idx, n_idx], g_new[s_idx, n_idx]
-            pending.append((s_idx, n_idx, np.full(s_idx.size, step * h), r0[s_idx], v0[s_idx],
-                            h * go / (go - gn)))           # start Newton from the linear crossing
-            n_pending += s_idx.size
-            if n_pending >= batch:
-                refine(pending)
-                pending, n_pending = [], 0
-        g_old = g_new
-    if pending:
-        refine(pending)
-    v = _kick(jac, r, v, -0.5 * h, h)                        # synchronise the final state
-    if corrector:
-        r, v = _corrector(jac, r, v, h, inverse=True)
-    broken = ~np.all(np.isfinite(r), axis=(1, 2))   # went unbound: a close encounter or an ejection
-    out[broken] = np.nan
-    out[..., ~want_epoch] = np.nan
-    out[out > t_end] = np.nan
-    inverse = np.argsort(order, axis=1)
-    out = np.take_along_axis(out, inverse[..., None], axis=1)
+    wanted, want_epoch = _wanted(period_sorted.shape, order, planets, epochs, k)
+    ecc_sorted = np.take_along_axis(els[1], order, axis=1)
+    hs = (default_step(period_sorted, ecc_sorted) if dt is None
+          else np.broadcast_to(np.asarray(dt, float), (masses.shape[0],)))
+    steps = np.ceil(t_end / hs).astype(int)
+    out, r_end, v_end = _nbody_compiled.integrate(masses, r, v, hs, steps, wanted, want_epoch, light_time,
+                                                  corrector, _corrector_ops(False), _corrector_ops(True),
+                                                  _KAPPA, threads=threads)
+    out[out > t_end] = np.nan                 # the last step may run past t_end
+    out = np.take_along_axis(out, np.argsort(order, axis=1)[..., None], axis=1)
     if return_state:
-        return out, (jac.from_jacobi(r), jac.from_jacobi(v), masses, h * steps)
+        return out, (jac.from_jacobi(r_end), jac.from_jacobi(v_end), masses, hs * steps)
     return out
 
 
 def reference_transit_times(masses, period, ecc, omega, inc, node, mean_anomaly, t_end: float,
-                            rtol: float = 1e-12) -> list:
+                            rtol: float = 1e-12, frame: str = "heliocentric") -> list:
     """The plain reference: each system integrated with scipy's DOP853 in barycentric coordinates.
 
     Returns, per system, a list (per planet) of transit-time arrays.
@@ -571,7 +395,8 @@ def reference_transit_times(masses, period, ecc, omega, inc, node, mean_anomaly,
     from scipy.integrate import solve_ivp
 
     masses = _check(masses, period, ecc)
-    xs, us = _setup(masses, *(np.asarray(x, float) for x in (period, ecc, omega, inc, node, mean_anomaly)))
+    xs, us = _setup(masses, *(np.asarray(x, float) for x in (period, ecc, omega, inc, node, mean_anomaly)),
+                    frame=frame)
     results = []
     for s in range(masses.shape[0]):
         m = masses[s]

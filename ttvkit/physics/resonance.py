@@ -70,7 +70,8 @@ def normalised_distance(inner_period, outer_period, j: int):
 
 
 def perturber_periods(transit_period, low: float = 0.3, high: float = 10.0, n: int = 500,
-                      resonance_points: int = 6, resonance_width: float = 0.03) -> u.Quantity:
+                      resonance_points: int = 6, resonance_width: float = 0.03,
+                      refine_on_top: bool = False) -> u.Quantity:
     """A grid of perturber periods: log-spaced plus points packed around resonances.
 
     Parameters
@@ -80,7 +81,8 @@ def perturber_periods(transit_period, low: float = 0.3, high: float = 10.0, n: i
     low, high : float
         Range as multiples of ``transit_period``.
     n : int
-        Total number of periods.
+        Total number of periods; with ``refine_on_top`` the number evenly
+        spaced in log period, the resonance points coming in addition.
     resonance_points : int
         Points on each side of every resonance in :data:`RESONANCES` (and of
         their inverses, for inner perturbers), within a fractional
@@ -99,5 +101,5 @@ def perturber_periods(transit_period, low: float = 0.3, high: float = 10.0, n: i
             offsets = np.geomspace(resonance_width / 30, resonance_width, resonance_points)
             packed += list(r * (1 + offsets)) + list(r * (1 - offsets))
     packed = np.array([x for x in packed if low <= x <= high])
-    base = np.geomspace(low, high, max(n - packed.size, 2))
+    base = np.geomspace(low, high, n if refine_on_top else max(n - packed.size, 2))
     return np.unique(np.concatenate([base, packed])) * p * u.day

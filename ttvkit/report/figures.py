@@ -270,6 +270,23 @@ def perturber_map_figure(pmap, fitted=None) -> Figure:
     return fig
 
 
+def planetary_system_figure(curves: dict, title: str = "") -> Figure:
+    """Per-planet O−C panels with the joint N-body model (``PlanetarySystem.oc_curves``)."""
+    with _style():
+        fig = _figure(7.0, 1.6 * len(curves) + 0.6)
+        axes = np.atleast_1d(fig.subplots(len(curves), 1))
+        for k, (ax, (name, c)) in enumerate(zip(axes, curves.items())):
+            ax.errorbar(c["index"], c["oc_s"] / 60, c["sigma_s"] / 60, fmt="o", ms=3, elinewidth=0.6,
+                        color=COLOURS[k % 7], label=f"{name}: data")
+            ax.plot(c["model_index"], c["model_oc_s"] / 60, "-", color="k", lw=0.8, label="N-body model")
+            ax.set_ylabel("O − C (min)")
+            ax.legend(loc="upper right", frameon=False)
+        axes[-1].set_xlabel("transit number since the elements' epoch")
+        if title:
+            axes[0].set_title(title)
+    return fig
+
+
 def all_figures(diagnosis) -> dict:
     """name → Figure for every figure of the report (the perturber map when the diagnosis has one)."""
     figures = {"oc_diagram": oc_figure(diagnosis), "periodogram": periodogram_figure(diagnosis),

@@ -82,9 +82,12 @@ def _perturber_section(pmap) -> str:
     allowed_small = [r for r in rows if r["hill_stable"] and r["rv_seen"] != 1]
     text = [f"<h2>Perturbing planets</h2><p>{info['grid_points']} N-body integrations over perturber periods "
             f"of {float(s['period_ratio'].min()):.2g}–{float(s['period_ratio'].max()):.3g}× the transiting "
-            f"planet's. The best single perturber sits at {b['period_ratio']:.3f}× the period with "
-            f"{b['mass_mearth']:.3g} Earth masses and improves χ² by {b['delta_chi2_gain']:.1f} over a "
-            f"constant period ({'Hill-stable' if b['hill_stable'] else 'Hill-unstable'}).</p>"]
+            f"planet's. " + (
+                "No single perturber that is Hill-stable and not excluded by the RV limits improves the fit."
+                if b is None else
+                f"The best single perturber the physics allows (Hill-stable, not excluded by the RV limits) "
+                f"sits at {b['period_ratio']:.3f}× the period with {b['mass_mearth']:.3g} Earth masses and "
+                f"improves χ² by {b['delta_chi2_gain']:.1f} over a constant period.") + "</p>"]
     if allowed_small:
         lo = min(allowed_small, key=lambda r: r["largest_mass"])
         text.append(f"<p>Tightest timing limit on a stable, RV-silent perturber: below "

@@ -118,7 +118,6 @@ def require_rows(table, minimum: int, path) -> None:
 def read_table_from_args(args):
     """A TimingTable from a command's table options (rows of --drop-rows left out)."""
     from ttvkit.timing.edits import parse_rows
-
     from ttvkit.timing.table import Ephemeris, TimingTable
 
     columns = parse_columns(args.column, example="time=HJD")

@@ -67,15 +67,13 @@ def add_commands(sub) -> None:
 
 
 def _cmd_diagnose(args) -> int:
-    from ttvkit.cli.common import parse_target, read_table_from_args, require_rows
+    from ttvkit.cli.common import parse_target, read_table_from_args, require_rows, table_edits
     from ttvkit.diagnosis.diagnose import DiagnosisOptions
     from ttvkit.errors import InputError
     from ttvkit.inference.likelihood import Likelihood
+    from ttvkit.io.outdir import check_folder
     from ttvkit.physics import System
     from ttvkit.pipeline import run_diagnosis
-    from ttvkit.cli.common import table_edits
-
-    from ttvkit.io.outdir import check_folder
 
     if not args.years > 0:  # before any reading or fitting
         raise InputError(f"--years {args.years:g}: the forecast horizon must be positive")

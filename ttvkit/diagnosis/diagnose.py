@@ -13,7 +13,6 @@ that passes every test the system file allows is not thereby the cause.
 from __future__ import annotations
 
 import os
-
 from dataclasses import dataclass, field, replace
 
 import astropy.units as u

@@ -15,8 +15,16 @@ import numpy as np
 from ttvkit.errors import EphemerisError, InputError, TimeStandardError, located
 from ttvkit.io.readers import RawTable
 from ttvkit.timing.ephemeris import ephemeris_from_meta, normalise_kind
-from ttvkit.timing.intake_checks import (IntakeWarning, Problems, check_given_epochs, check_time_sizes,
-                                         check_uncertainties, converted, handle_repeats, place_rows)
+from ttvkit.timing.intake_checks import (
+    IntakeWarning,
+    Problems,
+    check_given_epochs,
+    check_time_sizes,
+    check_uncertainties,
+    converted,
+    handle_repeats,
+    place_rows,
+)
 from ttvkit.timing.standards import parse_standard, target_from_meta, to_bjd_tdb
 
 __all__ = ["build_table", "raw_from_table"]

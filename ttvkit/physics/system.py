@@ -257,7 +257,10 @@ class System:
             section._where = where
         from ttvkit.physics.system_checks import check_consistency
 
-        check_consistency(system, where, data.get("star", {}).get("radius"))
+        radius_text = data.get("star", {}).get("radius")
+        if radius_text is not None:
+            radius_text = _split_uncertainty(radius_text, where, "star", "radius")[0]
+        check_consistency(system, where, radius_text)
         return system
 
     def to_dict(self) -> dict:

@@ -92,7 +92,6 @@ def test_fit_starts_from_the_near_resonant_period():
     assert np.all((masses > 5) & (masses < 80))   # Earth masses: a 1-Earth-mass template scaled
 
 
-@pytest.mark.slow
 def test_sampled_posterior_covers_the_truth(fitted):
     # emcee (fixed seed, 400 steps of 32 walkers: short of convergence, so
     # the warning is expected); the truth lies inside the central 99.7% of
@@ -165,7 +164,6 @@ def test_map_seeds_carry_the_longitude_the_hypothesis_uses():
     assert 5 < mass < 60
 
 
-@pytest.mark.slow
 def test_diagnose_fits_it_when_asked_and_judges_its_physics(tmp_path, capsys):
     from ttvkit.diagnosis import diagnose
 

@@ -47,7 +47,6 @@ def test_injection_and_recovery(name):
     assert abs(np.mean(pulls)) < 0.35  # bias below a third of sigma (3 sigma of the mean of 100)
 
 
-@pytest.mark.slow
 def test_constant_period_false_positives():
     # Pure constant-period tables: a non-linear hypothesis "wins" when its BIC
     # is lower by more than 10 ("very strong", Kass & Raftery 1995, JASA 90,

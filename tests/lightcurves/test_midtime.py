@@ -3,6 +3,7 @@
 import batman
 import numpy as np
 import pytest
+from lightcurves.lc_sim import ar1
 
 from ttvkit import InputError
 from ttvkit.lightcurves.measure import fit_shape, measure
@@ -69,14 +70,8 @@ def test_carter_worked_number():
 
 
 def red_noise(phi=0.7, scale=1e-3):
-    def draw(rng, n):
-        x = np.empty(n)
-        x[0] = rng.normal(0, scale)
-        innovations = rng.normal(0, scale * np.sqrt(1 - phi ** 2), n)
-        for i in range(1, n):
-            x[i] = phi * x[i - 1] + innovations[i]
-        return x
-    return draw
+    """AR(1) noise with lag-one correlation ``phi`` between neighbouring points (lc_sim.ar1)."""
+    return lambda rng, n: ar1(rng, n, 1.0, scale, -1.0 / np.log(phi))
 
 
 def test_beta_sees_red_noise():

@@ -37,7 +37,10 @@ def test_fit_prints_t0_to_its_error_and_records_edits_and_excess_noise(capsys):
     assert code == 0, err
     d = json.loads(out)
     assert d["table_edits"]["drop_rows"] == [3, 5] and d["n_points"] == 165
-    assert d["excess_noise"]["applied"] and "jitter" in d["parameters"]
+    # one jitter per source with >= 10 rows, one for the rest (ttvkit.inference.excess_noise)
+    jitters = [name for name in d["parameters"] if name.startswith("jitter")]
+    assert d["excess_noise"]["applied"] and jitters == [f"jitter[{g}]" for g in d["excess_noise"]["jitter_groups"]]
+    assert len(jitters) > 1 and d["excess_noise"]["jitter_groups"][-1] == "other sources"
     code, out, _ = run(["fit", str(WASP43), "--hypothesis", "orbital-decay", "--ephemeris",
                         "2457423.449697,0.813474037", *COLUMNS], capsys)
     t0_line = next(line for line in out.splitlines() if line.strip().startswith("T0"))
@@ -72,3 +75,16 @@ def test_system_naming_a_folder(demo_inputs, tmp_path, capsys):
     code, _, err = run(["diagnose", str(demo_inputs["timings"]), "--system", str(tmp_path),
                         "--out", str(tmp_path / "r")], capsys)
     assert code == 2 and "is a folder" in err and "internal error" not in err
+
+
+def test_intake_warnings_reach_the_json(capsys):
+    # TrES-3 (Ivshina & Winn 2022): 19 rows say only "BJD"; told to read them as BJD_TDB, ttvkit warns on
+    # stderr and the same words go into the JSON, so a script that keeps only stdout keeps them too.
+    tres3 = DATA / "ivshina_winn2022_TrES-3_transit_times.csv"
+    code, out, err = run(["fit", str(tres3), "--hypothesis", "constant-period", "--json", "--ephemeris",
+                          "2456824.4074,1.30618627", "--bare-bjd", "BJD_TDB", "--drop-rows", "188", *COLUMNS],
+                         capsys)
+    assert code == 0, err
+    warnings = json.loads(out)["table_warnings"]
+    assert len(warnings) == 1 and "19 row(s) labelled only 'BJD'" in warnings[0]
+    assert "19 row(s) labelled only 'BJD'" in err

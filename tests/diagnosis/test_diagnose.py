@@ -74,11 +74,14 @@ def test_json_validates_against_the_schema(tmp_path):
     from ttvkit.report import write_report
 
     table = simulate("sinusoidal-modulation", MODULATION, np.random.default_rng(34), sigma_s=3.0)
+    table.intake_warnings = ["rows 3 and 9: the same mid-time twice (an invented reading note)"]
     d = run(table, BINARY, ["sinusoidal-modulation", "orbital-decay"])
     paths = write_report(d, tmp_path / "report")
     schema = json.loads(resources.files("ttvkit").joinpath("report/schemas/diagnosis.schema.json").read_text())
     payload = json.loads(paths["diagnosis.json"].read_text())
     jsonschema.validate(payload, schema)
+    # what reading the table warned about is in the JSON too (issue 13)
+    assert {"kind": "table", "message": table.intake_warnings[0]} in payload["warnings"]
     assert "plausibility screen, not a proof" in paths["report.html"].read_text()
     for name in ("oc_diagram", "periodogram", "activity_envelope", "companion_check", "forecast", "posterior_corner"):
         assert (tmp_path / "report" / f"{name}.png").stat().st_size > 10_000

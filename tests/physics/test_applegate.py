@@ -139,3 +139,13 @@ def test_missing_luminosity_names_the_value():
                Orbit(period=0.2 * u.day))
     with pytest.raises(MissingValueError, match="star.luminosity.*Applegate"):
         thin_shell_budget(s, 10 * u.s, 10 * u.yr)
+
+
+@pytest.mark.parametrize("fraction", [1.5, -0.1, 0.0, 1.0])
+def test_shell_mass_outside_the_star_is_refused_by_the_library(fraction):
+    # A shell heavier than the star or of negative mass gives a negative core moment of inertia or
+    # energy (Applegate 1992, ApJ 385, 621, eq. for the thin shell's energy): refused, not computed.
+    from ttvkit.errors import InputError
+
+    with pytest.raises(InputError, match="strictly between 0 and 1"):
+        thin_shell_budget(nn_ser(), 30 * u.s, 20 * u.yr, shell_mass_fraction=fraction)

@@ -89,7 +89,7 @@ def _run(args, hypotheses):
     if args.steps < 100:
         raise InputError("--steps must be at least 100")
     table, edits, notes = read_edited_table(args, minimum=4 if len(hypotheses) > 1 else 1)
-    extra = {"table_edits": edits.to_dict(), "table_notes": notes}
+    extra = {"table_edits": edits.to_dict(), "table_notes": notes, "table_warnings": table.intake_warnings}
     context = None
     if args.system:
         from ttvkit.diagnosis.diagnose import timing_context

@@ -276,7 +276,7 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
     hypotheses = list(options.hypotheses)
     if "constant-period" not in hypotheses:  # the reference of every O−C
         hypotheses.insert(0, "constant-period")
-    notes = []
+    notes = [{"kind": "table", "message": m} for m in getattr(table, "intake_warnings", [])]
     if options.excess_noise:
         from ttvkit.inference.excess_noise import decide_excess_noise
 

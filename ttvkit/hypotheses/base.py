@@ -145,6 +145,9 @@ class TimingData:
     perturber_seeds : tuple
         Extra starting points (period in days, mass in M⊕, longitude in
         rad) for a perturbing-planet fit, e.g. a perturber map's best points.
+    source : ndarray of str, optional
+        Where each mid-time comes from (a per-source excess-noise term
+        reads it); None for epochs without data.
     """
 
     epoch: np.ndarray
@@ -156,6 +159,7 @@ class TimingData:
     period: float
     host: HostContext = field(default_factory=HostContext)
     perturber_seeds: tuple = ()
+    source: np.ndarray | None = None
 
     @classmethod
     def from_table(cls, table, context=None, perturber_seeds=()) -> "TimingData":
@@ -168,7 +172,7 @@ class TimingData:
         line = weighted_line(epoch + phase, table.time - t_anchor, table.uncertainty)
         t_ref = t_anchor + line.intercept
         return cls(epoch, phase, phase > 0, table.time - t_ref, table.uncertainty.copy(), t_ref,
-                   line.slope, HostContext.coerce(context), tuple(perturber_seeds))
+                   line.slope, HostContext.coerce(context), tuple(perturber_seeds), np.asarray(table.source))
 
     def at_epochs(self, epochs, phase=None) -> "TimingData":
         """The same reference and context at other epochs (no data): for predictions and figures."""

@@ -6,24 +6,31 @@ A plain weighted fit of such a table turns the excess into false
 significance.  The decision is made once per table, on the quadratic
 (orbital-decay) ephemeris, the most flexible cheap model every comparison
 holds: if its χ² is too large for its degrees of freedom (p < 0.01, the
-χ² distribution's upper tail), every hypothesis is fitted with a white
-excess-noise term (``jitter``, added in quadrature) and the output says so.
+χ² distribution's upper tail), every hypothesis is fitted with white
+excess-noise terms (jitters, added in quadrature) and the output says so:
+one for each source with at least :data:`MIN_ROWS_PER_SOURCE` mid-times
+(observers understate their errors by different amounts) and one shared by
+the remaining rows; one for the whole table when no source has enough.
 Under-dispersed tables (p > 0.999 in the lower tail: uncertainties likely
 overestimated, or seconds/minutes read as days) get a warning.
 
 The p < 0.01 threshold is common practice, no source; the lower-tail
-threshold is set stricter so that honest tables rarely trip it.
+threshold is set stricter so that honest tables rarely trip it.  Ten rows
+per source: a variance estimated from n points has a relative error of
+about sqrt(2 / (n − 1)), ≈ 0.5 at n = 10 (common practice, no source);
+fewer rows would give jitters the data cannot pin down.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
 from scipy.stats import chi2 as chi2_distribution
 
 from ttvkit.inference.likelihood import Likelihood
 
-__all__ = ["ExcessNoiseDecision", "decide_excess_noise"]
+__all__ = ["ExcessNoiseDecision", "decide_excess_noise", "jitter_likelihood", "MIN_ROWS_PER_SOURCE"]
 
 #: Upper-tail p-value below which the scatter is called excessive (common practice, no source).
 P_EXCESS = 0.01
@@ -31,6 +38,8 @@ P_EXCESS = 0.01
 P_UNDER = 0.001
 #: The model the decision is made on.
 REFERENCE = "orbital-decay"
+#: A source needs this many mid-times for a jitter of its own (see the module notes).
+MIN_ROWS_PER_SOURCE = 10
 
 
 @dataclass(frozen=True)
@@ -59,7 +68,26 @@ class ExcessNoiseDecision:
     def to_dict(self) -> dict:
         """The decision, for JSON outputs."""
         return {"applied": self.applied, "reference_model": REFERENCE, "chi2": self.chi2,
-                "dof": self.dof, "p_value": self.p_value, "message": self.message}
+                "dof": self.dof, "p_value": self.p_value, "message": self.message,
+                "jitter_groups": list(self.likelihood.jitter_groups) if self.applied else []}
+
+
+def jitter_likelihood(table, like: Likelihood, min_rows: int = MIN_ROWS_PER_SOURCE) -> Likelihood:
+    """``like`` with excess-noise terms: one per source with ``min_rows`` or more mid-times, one more
+    shared by the other rows, or a single one when fewer than two groups would result."""
+    if getattr(table, "source", None) is None:
+        return Likelihood(like.kind, jitter=True, dof=like.dof)
+    source = np.asarray(table.source).astype(str)
+    names, counts = np.unique(source, return_counts=True)
+    order = sorted(range(len(names)), key=lambda i: (-counts[i], names[i]))
+    rich = [str(names[i]) for i in order if counts[i] >= min_rows]
+    rest = int(np.sum(~np.isin(source, rich)))
+    if len(rich) + (rest > 0) < 2:  # one group in all: a single jitter
+        return Likelihood(like.kind, jitter=True, dof=like.dof)
+    if 0 < rest < 2:  # a lone leftover row cannot pin a jitter: it joins the smallest named source's
+        rich = rich[:-1]
+        rest = int(np.sum(~np.isin(source, rich)))
+    return Likelihood(like.kind, dof=like.dof, jitter_sources=rich, other_sources=rest > 0)
 
 
 def decide_excess_noise(table, likelihood: Likelihood | None = None, context=None) -> ExcessNoiseDecision:
@@ -89,11 +117,16 @@ def decide_excess_noise(table, likelihood: Likelihood | None = None, context=Non
     p_low = float(chi2_distribution.cdf(ref.chi2, dof))
     head = f"χ² = {ref.chi2:.1f} for {dof} dof (reduced {ref.chi2 / dof:.2f}) about a quadratic ephemeris"
     if p_high < P_EXCESS and like.is_least_squares:
+        jittered = jitter_likelihood(table, like)
+        if jittered.n_extra == 1:
+            terms = "an excess-noise term (a white jitter added in quadrature; one for the whole table)"
+        else:
+            terms = (f"{jittered.n_extra} excess-noise terms (white jitters added in quadrature; one each for "
+                     f"{', '.join(repr(g) for g in jittered.jitter_sources)}"
+                     f"{' and one for the other sources' if jittered.other_sources else ''})")
         message = (f"{head}, p = {p_high:.1e}: the quoted uncertainties are too small for the scatter; "
-                   "every hypothesis was fitted with an excess-noise term (a white jitter added in "
-                   "quadrature; one term for the whole table) -- turn off with --no-excess-noise")
-        return ExcessNoiseDecision(Likelihood(like.kind, jitter=True, dof=like.dof), True, float(ref.chi2),
-                                   dof, p_high, message)
+                   f"every hypothesis was fitted with {terms} -- turn off with --no-excess-noise")
+        return ExcessNoiseDecision(jittered, True, float(ref.chi2), dof, p_high, message)
     if p_low < P_UNDER:
         message = (f"{head}: the scatter is far smaller than the quoted uncertainties (p = {p_low:.1e}); "
                    "they may be overestimated, or given in seconds or minutes and read as days")

@@ -119,8 +119,15 @@ def fit(table, hypothesis="constant-period", likelihood: Likelihood | None = Non
         theta, cov = _maximise(hyp, data, like, theta, cov, lo, hi)
     resid = data.time - hyp.predict(theta[:k], data)
     chi2 = float(np.sum((resid / data.sigma) ** 2))
-    log_l = float(like(resid, data.sigma, theta[k] if like.jitter else None))
+    log_l = float(_log_like(like, data, resid, theta[k:]))
     return FitResult(hyp, data, theta, cov, log_l, chi2, like, warnings=notes)
+
+
+def _log_like(like: Likelihood, data: TimingData, resid, extra):
+    """ln L of residuals (..., n) with the likelihood's own parameters ``extra`` (..., n_extra)."""
+    if not like.jitter:
+        return like(resid, data.sigma)
+    return like(resid, data.sigma, extra, like.group_index(data.source, data.n))
 
 
 def _least_squares(func, start, lo, hi, quick: bool, jac="2-point"):
@@ -147,7 +154,7 @@ def _covariance_from_jacobian(jac: np.ndarray) -> np.ndarray:
 
 def _full_bounds(hyp, data, like, lo, hi):
     if like.jitter:
-        jl, jh = like.jitter_bounds(data.sigma)
+        jl, jh = like.jitter_bounds(data.sigma, like.group_index(data.source, data.n))
         return np.append(lo, jl), np.append(hi, jh)
     return lo, hi
 
@@ -158,16 +165,19 @@ def _maximise(hyp, data, like, theta, cov, lo, hi):
     x0 = theta.copy()
     if like.jitter:
         resid = data.time - hyp.predict(theta, data)
-        excess = max(np.mean(resid ** 2 - data.sigma ** 2), (0.1 * np.median(data.sigma)) ** 2)
-        x0 = np.append(x0, np.clip(0.5 * np.log(excess), flo[-1] + 1e-6, fhi[-1] - 1e-6))
+        group = like.group_index(data.source, data.n)
+        for g in range(like.n_extra):  # start each jitter at its rows' excess scatter
+            rows = group == g
+            excess = (max(np.mean(resid[rows] ** 2 - data.sigma[rows] ** 2),
+                          (0.1 * np.median(data.sigma[rows])) ** 2) if np.any(rows) else np.median(data.sigma) ** 2)
+            x0 = np.append(x0, np.clip(0.5 * np.log(excess), flo[k + g] + 1e-6, fhi[k + g] - 1e-6))
     scale = np.sqrt(np.clip(np.diag(cov), 1e-30, None))
-    if like.jitter:
-        scale = np.append(scale, 0.1)
+    scale = np.append(scale, np.full(like.n_extra, 0.1))
 
     def negative(z):
         x = x0 + z * scale
         r = data.time - hyp.predict(x[:k], data)
-        value = -like(r, data.sigma, x[k] if like.jitter else None)
+        value = -_log_like(like, data, r, x[k:])
         return float(value) if np.isfinite(value) else 1e300
 
     zb = [((a - b) / s, (c - b) / s) for a, b, c, s in zip(flo, x0, fhi, scale)]
@@ -177,13 +187,30 @@ def _maximise(hyp, data, like, theta, cov, lo, hi):
     x = x0 + res.x * scale
     x = np.clip(x, flo, fhi)
     hess = _hessian(lambda v: negative((v - x0) / scale), x, scale * 1e-2)
-    try:
-        cov_new = np.linalg.inv(hess)
-        if not np.all(np.diag(cov_new) > 0):
-            raise np.linalg.LinAlgError
-    except np.linalg.LinAlgError:
-        cov_new = np.diag(scale ** 2)
-    return x, cov_new
+    return x, _inverse_hessian(hess, scale)
+
+
+def _inverse_hessian(hess: np.ndarray, scale: np.ndarray) -> np.ndarray:
+    """The covariance (the inverse Hessian of −ln L).  A direction the likelihood does not constrain
+    (a jitter driven to its lower bound is flat) is set aside and given its prior-like scale, so the
+    other parameters keep their correlations instead of all falling back to a diagonal guess."""
+    n = hess.shape[0]
+    keep = np.ones(n, bool)
+    for _ in range(n):
+        block = hess[np.ix_(keep, keep)] * np.outer(scale[keep], scale[keep])  # scaled to order unity
+        try:
+            np.linalg.cholesky(block)  # the optimum must be a maximum in every kept direction
+            sub = np.linalg.inv(block) * np.outer(scale[keep], scale[keep])
+            cov = np.diag(scale ** 2)
+            cov[np.ix_(keep, keep)] = sub
+            return cov
+        except np.linalg.LinAlgError:
+            pass
+        curvature = np.where(keep, np.diag(hess) * scale ** 2, np.inf)
+        keep[int(np.argmin(curvature))] = False  # drop the flattest direction and try again
+        if not keep.any():
+            break
+    return np.diag(scale ** 2)
 
 
 def _hessian(func, x, step):
@@ -249,7 +276,7 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
         if np.any(inside):
             t = theta[inside]
             r = data.time - hyp.predict(t[:, :k], data)
-            out[inside] = like(r, data.sigma, t[:, k] if like.jitter else None)
+            out[inside] = _log_like(like, data, r, t[:, k:])
         out[~np.isfinite(out)] = -np.inf
         return out
 
@@ -291,7 +318,7 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
                    "acceptance_fraction": float(np.mean(sampler.acceptance_fraction)), "seed": int(seed)}
     resid = data.time - hyp.predict(theta[:k], data)
     return FitResult(hyp, data, theta, np.cov(samples.T).reshape(ndim, ndim),
-                     float(like(resid, data.sigma, theta[k] if like.jitter else None)),
+                     float(_log_like(like, data, resid, theta[k:])),
                      float(np.sum((resid / data.sigma) ** 2)), like, samples, diagnostics, notes)
 
 

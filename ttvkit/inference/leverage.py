@@ -101,7 +101,8 @@ def find_leverage(result, table, context=None) -> list:
         for what, which, mask in candidates:
             if mask.sum() <= result.n_parameters + 1:
                 continue
-            refit = fit(table.subset(mask), result.hypothesis, result.likelihood, context=context)
+            like = result.likelihood.restricted_to(table.source[mask])  # no jitter left without rows
+            refit = fit(table.subset(mask), result.hypothesis, like, context=context)
             new = _estimate(refit, name)
             if new is not None and abs(new["value"] - est["value"]) > est["error"]:
                 out.append(Leverage(parameter=name, what=what, which=which, **{"with": est, "without": new}))

@@ -141,8 +141,14 @@ class FitResult:
             return self._cache[key]
         rng = np.random.default_rng(seed)
         cov = 0.5 * (self.covariance + self.covariance.T)
+        # Drawn in units of each parameter's own σ: the covariance mixes scales from 1e-22 (dP/dE²)
+        # to 1e2 (a loosely pinned log-jitter), and an eigen-decomposition of the raw matrix would
+        # drown the small ones in round-off.
+        sd = np.sqrt(np.clip(np.diag(cov), 0, None))
+        unit = np.where(sd > 0, sd, 1.0)
         try:
-            draws = rng.multivariate_normal(self.theta, cov, size=count, method="eigh")
+            z = rng.multivariate_normal(np.zeros(sd.size), cov / np.outer(unit, unit), size=count, method="eigh")
+            draws = self.theta + z * unit
         except (np.linalg.LinAlgError, ValueError):
             draws = np.repeat(self.theta[None, :], count, axis=0)
         self._cache[key] = draws
@@ -168,12 +174,17 @@ class FitResult:
             offset = self.data.t_ref if p.name == "T0" else 0.0
             out[p.name] = {"value": float(best * p.to_display + offset), "lower": lo * p.to_display,
                            "upper": hi * p.to_display, "unit": p.unit, "description": p.description}
-        if self.likelihood.jitter:
-            col = np.exp(draws[:, -1]) * DAY_S
+        k = self.hypothesis.n_parameters
+        if self.likelihood.jitter:  # draws of the Gaussian approximation are kept within the prior's bounds
+            j_lo, j_hi = self.likelihood.jitter_bounds(
+                self.data.sigma, self.likelihood.group_index(self.data.source, self.data.n))
+        for g, (name, group) in enumerate(zip(self.likelihood.parameter_names(), self.likelihood.jitter_groups)):
+            col = np.exp(np.clip(draws[:, k + g], j_lo[g], j_hi[g])) * DAY_S
             med, lo, hi = summarise(col)
-            best = float(np.exp(self.theta[-1]) * DAY_S) if self.samples is None else med
-            out["jitter"] = {"value": best, "lower": lo, "upper": hi, "unit": "s",
-                             "description": "extra white timing noise added in quadrature"}
+            best = float(np.exp(self.theta[k + g]) * DAY_S) if self.samples is None else med
+            whose = "" if self.likelihood.n_extra == 1 else f" ({group})"
+            out[name] = {"value": best, "lower": lo, "upper": hi, "unit": "s",
+                         "description": f"extra white timing noise added in quadrature{whose}"}
         self._cache["parameters"] = out
         return out
 

@@ -56,6 +56,7 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 
+from ttvkit.errors import InputError
 from ttvkit.physics.structure import polytrope
 from ttvkit.physics.system import System
 
@@ -195,9 +196,13 @@ def thin_shell_budget(system: System, amplitude, modulation_period, shell_mass_f
     -------
     ActivityBudget
     """
+    fraction = float(shell_mass_fraction)
+    if not 0 < fraction < 1:  # outside, the shell's energy turns negative or the core vanishes
+        raise InputError(f"shell_mass_fraction {fraction:g} must be a fraction of the star's mass, "
+                         "strictly between 0 and 1 (e.g. 0.1)")
     mass, radius, lum, dpp, delta_q, omega, spin_used = _common(system, amplitude, modulation_period)
     n = system.star.structure_index
-    shell_mass = shell_mass_fraction * mass
+    shell_mass = fraction * mass
     i_shell = (2 / 3) * shell_mass * radius ** 2
     if core_inertia is None:
         core_inertia = polytrope(n).gyration_squared * (mass - shell_mass) * radius ** 2

@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import io
 import os
+import warnings
 from pathlib import Path
 
 import astropy.units as u
@@ -36,7 +37,7 @@ from astropy.coordinates import EarthLocation, SkyCoord
 
 from ttvkit._version import __version__
 from ttvkit.constants import YEAR_D
-from ttvkit.errors import EphemerisError, InputError
+from ttvkit.errors import EphemerisError, InputError, TtvkitWarning
 from ttvkit.io.readers import atomic_write_text, read_raw_table
 from ttvkit.timing.ephemeris import KINDS, Ephemeris
 
@@ -109,6 +110,9 @@ class TimingTable:
                 raise InputError("epoch values must be integers")
             self.epoch = as_float.astype(np.int64)
         self.extra = {k: _sized(np.atleast_1d(np.asarray(v)), n, str(k)) for k, v in (extra or {}).items()}
+        #: What reading the table warned about (repeats dropped, disagreements, old dates, bare 'BJD'
+        #: labels), kept so that JSON outputs and reports can carry it; the warnings are also issued.
+        self.intake_warnings: list[str] = []
 
     # ------------------------------------------------------------------ basics
     def __len__(self) -> int:
@@ -128,10 +132,12 @@ class TimingTable:
     def subset(self, mask) -> "TimingTable":
         """The rows where ``mask`` is true (or the given indices)."""
         index = np.asarray(mask)
-        return TimingTable(self.time[index], self.uncertainty[index], self.epoch[index],
-                           self.kind[index], self.source[index], self.given_standard[index],
-                           self.target, self.ephemeris,
-                           {k: v[index] for k, v in self.extra.items()})
+        out = TimingTable(self.time[index], self.uncertainty[index], self.epoch[index],
+                          self.kind[index], self.source[index], self.given_standard[index],
+                          self.target, self.ephemeris,
+                          {k: v[index] for k, v in self.extra.items()})
+        out.intake_warnings = list(self.intake_warnings)
+        return out
 
     def sorted(self) -> "TimingTable":
         """A copy ordered by mid-time."""
@@ -154,13 +160,15 @@ class TimingTable:
             except (TypeError, ValueError):
                 extra[k] = extra[k].astype(str)
         first = tables[0]
-        return TimingTable(np.concatenate([t.time for t in tables]),
-                           np.concatenate([t.uncertainty for t in tables]),
-                           np.concatenate([t.epoch for t in tables]),
-                           np.concatenate([t.kind for t in tables]),
-                           np.concatenate([t.source for t in tables]),
-                           np.concatenate([t.given_standard for t in tables]),
-                           first.target, first.ephemeris, extra)
+        out = TimingTable(np.concatenate([t.time for t in tables]),
+                          np.concatenate([t.uncertainty for t in tables]),
+                          np.concatenate([t.epoch for t in tables]),
+                          np.concatenate([t.kind for t in tables]),
+                          np.concatenate([t.source for t in tables]),
+                          np.concatenate([t.given_standard for t in tables]),
+                          first.target, first.ephemeris, extra)
+        out.intake_warnings = [w for t in tables for w in t.intake_warnings]
+        return out
 
     def observed_minus_calculated(self, ephemeris: Ephemeris | None = None) -> u.Quantity:
         """O−C against ``ephemeris`` (the table's own if omitted), in seconds."""
@@ -192,7 +200,7 @@ class TimingTable:
 
         raw = raw_from_table(table)
         kwargs.setdefault("source", "table")
-        return build_table(cls, raw, standard=standard, target=kwargs.pop("target", None),
+        return _keeping_warnings(build_table, cls, raw, standard=standard, target=kwargs.pop("target", None),
                            observer=kwargs.pop("observer", None), ephemeris=kwargs.pop("ephemeris", None),
                            columns=kwargs.pop("columns", None) or {}, units=kwargs.pop("units", None) or {},
                            **kwargs)
@@ -292,7 +300,7 @@ class TimingTable:
         raw = read_raw_table(path)
         from ttvkit.timing.reading import build_table
 
-        return build_table(cls, raw, standard=standard, target=target, observer=observer,
+        return _keeping_warnings(build_table, cls, raw, standard=standard, target=target, observer=observer,
                            ephemeris=ephemeris, columns=columns or {}, units=units or {},
                            source=source or Path(path).name, drop_rows=drop_rows, bare_bjd=bare_bjd)
 
@@ -327,6 +335,17 @@ class TimingTable:
         from ttvkit.timing.standards_check import suspect_standards
 
         return suspect_standards(self, **kwargs)
+
+
+def _keeping_warnings(make, *args, **kwargs) -> "TimingTable":
+    """``make(*args, **kwargs)`` with ttvkit's warnings both issued and kept on the table made."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        table = make(*args, **kwargs)
+    for w in caught:
+        warnings.warn_explicit(w.message, w.category, w.filename, w.lineno, source=w.source)
+    table.intake_warnings = [str(w.message) for w in caught if issubclass(w.category, TtvkitWarning)]
+    return table
 
 
 def _days(values, name: str) -> np.ndarray:

@@ -92,8 +92,9 @@ def test_fit_starts_from_the_near_resonant_period():
     assert np.all((masses > 5) & (masses < 80))   # Earth masses: a 1-Earth-mass template scaled
 
 
+@pytest.mark.slow
 def test_sampled_posterior_covers_the_truth(fitted):
-    # emcee (fixed seed, 400 steps of 32 walkers: short of convergence, so
+    # Slow (two minutes of N-body sampling): out of the default run.  emcee (fixed seed, 400 steps of 32 walkers: short of convergence, so
     # the warning is expected); the truth lies inside the central 99.7% of
     # every perturber parameter's samples (3 sigma for a Gaussian).
     _, result = fitted
@@ -185,13 +186,20 @@ def test_diagnose_fits_it_when_asked_and_judges_its_physics(tmp_path, capsys):
     mass, period = p["perturber_mass"]["value"], p["perturber_period"]["value"]
     k = 28.4329 * (mass / 317.828) * (period / 365.25) ** (-1 / 3) * (1 + mass / 332946 + M_PLANET) ** (-2 / 3)
     assert checks["radial-velocity visibility"].value == pytest.approx(k, rel=0.01)
-    # the command line: fit with --system; without it, a one-line error
+    # the command line without a system file: a one-line error naming what is missing (cheap)
     path = tmp_path / "t.ecsv"
     table.write(path)
+    assert main(["fit", str(path), "--hypothesis", "n-body-perturber"]) == 2
+    assert "star's mass" in capsys.readouterr().err
+
+
+@pytest.mark.slow
+def test_command_line_fits_it_with_a_system_file(tmp_path, capsys):
+    # a second full N-body fit (minutes): out of the default run
+    path = tmp_path / "t.ecsv"
+    simulated_table().write(path)
     system = tmp_path / "s.toml"
     system.write_text('name = "test pair"\n[star]\nmass = "1 Msun"\nradius = "1 Rsun"\nteff = "5800 K"\n'
                       '[companion]\nmass = "1 Mjup"\n[orbit]\nperiod = "3 d"\n')
     assert main(["fit", str(path), "--hypothesis", "n-body-perturber", "--system", str(system)]) == 0
     assert "perturber_mass" in capsys.readouterr().out
-    assert main(["fit", str(path), "--hypothesis", "n-body-perturber"]) == 2
-    assert "star's mass" in capsys.readouterr().err

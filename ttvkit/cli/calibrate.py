@@ -41,6 +41,9 @@ def add_commands(sub) -> None:
     p.add_argument("--error-scale", type=float, default=1.0,
                    help="true scatter / stated errors (1.5: errors understated 1.5x)")
     p.add_argument("--jitter", action="store_true", help="fit an extra white timing noise in every comparison")
+    p.add_argument("--no-excess-noise", action="store_true",
+                   help="do not decide per simulated table, as diagnose does, whether excess-noise terms are "
+                        "needed (chi2 too large for its dof, p < 0.01)")
     p.add_argument("--seed", type=int, default=0)
     p.add_argument("--workers", type=int, help="worker processes (default: every core)")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
@@ -70,7 +73,8 @@ def _cmd_calibrate(args) -> int:
     options = CalibrationOptions(n_null=args.nulls, n_per_amplitude=args.per_amplitude, amplitudes=amplitudes,
                                  inject=tuple(s.strip() for s in args.inject.split(",") if s.strip()),
                                  error_scale=args.error_scale, seed=args.seed,
-                                 likelihood=Likelihood(jitter=True) if args.jitter else None)
+                                 likelihood=Likelihood(jitter=True) if args.jitter else None,
+                                 excess_noise=not args.no_excess_noise)
     with staged_folder(args.out, args.force) as stage, ProcessPoolExecutor(max_workers=args.workers) as pool:
         result = calibrate(table, options, executor=pool, progress=not args.no_progress and not args.json)
         text = json.dumps(result.to_dict(), indent=2)

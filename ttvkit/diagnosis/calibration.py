@@ -36,6 +36,7 @@ from ttvkit.diagnosis.verdicts import NEEDED, bic_gain, decide
 from ttvkit.errors import InputError
 from ttvkit.hypotheses import TimingData, get_hypothesis
 from ttvkit.hypotheses.ephemerides import MS_PER_YR_PER_S_PER_S
+from ttvkit.inference.excess_noise import decide_excess_noise
 from ttvkit.inference.fitting import compare
 
 __all__ = ["CalibrationOptions", "Calibration", "calibrate", "CALIBRATION_HYPOTHESES", "detectability"]
@@ -67,6 +68,10 @@ class CalibrationOptions:
         True scatter ÷ stated uncertainty (1.5: errors understated by 1.5×).
     likelihood : Likelihood or None
         Gaussian by default; ``Likelihood(jitter=True)`` fits an excess white noise.
+    excess_noise : bool
+        Decide on each simulated table, as ``diagnose`` does on the real one, whether its scatter
+        needs excess-noise terms (:func:`~ttvkit.inference.excess_noise.decide_excess_noise`), so
+        that the calibration runs the same verdict (True by default).
     seed : int
     """
 
@@ -77,6 +82,7 @@ class CalibrationOptions:
     hypotheses: tuple = CALIBRATION_HYPOTHESES
     error_scale: float = 1.0
     likelihood: object = None
+    excess_noise: bool = True
     seed: int = 0
 
     def __post_init__(self):
@@ -161,12 +167,14 @@ _INJECTORS = {"orbital-decay": _decay_theta, "sinusoidal-modulation": _modulatio
 
 def _trial(job):
     """One simulated table → {hypothesis: verdict} and the decay fit's interval (picklable, top level)."""
-    data, base_theta, inject, amplitude, hypotheses, likelihood, error_scale, seed, truth_rate = job
+    data, base_theta, inject, amplitude, hypotheses, likelihood, error_scale, seed, truth_rate, excess = job
     rng = np.random.default_rng(seed)
     hyp = get_hypothesis(inject or "constant-period")
     theta = _INJECTORS[inject](data, base_theta, amplitude) if inject else base_theta
     times = hyp.predict(theta, data) + rng.normal(0.0, error_scale * data.sigma)
     sim = replace(data, time=times)
+    if excess:
+        likelihood = decide_excess_noise(sim, likelihood).likelihood
     comparison = compare(sim, hypotheses, likelihood, progress=False)
     verdicts = {}
     for f in comparison.fits:
@@ -224,7 +232,7 @@ def calibrate(table, options: CalibrationOptions | None = None, *, executor=None
     jobs, labels = [], []
     for _ in range(options.n_null):
         jobs.append((data, base, None, 0.0, hypotheses, options.likelihood, options.error_scale,
-                     int(rng.integers(2 ** 63)), 0.0))
+                     int(rng.integers(2 ** 63)), 0.0, options.excess_noise))
         labels.append((None, 0.0))
     for name in options.inject:
         sigma = units[name][0]
@@ -234,7 +242,7 @@ def calibrate(table, options: CalibrationOptions | None = None, *, executor=None
                 value = -amp * sigma if name == "orbital-decay" else amp * sigma
                 rate = value / base[1] * MS_PER_YR_PER_S_PER_S if name == "orbital-decay" else 0.0
                 jobs.append((data, base, name, value, hypotheses, options.likelihood, options.error_scale,
-                             int(rng.integers(2 ** 63)), rate))
+                             int(rng.integers(2 ** 63)), rate, options.excess_noise))
                 labels.append((name, amp))
     own = executor is None
     if own:
@@ -268,6 +276,7 @@ def _summarise(results, labels, hypotheses, options, units) -> Calibration:
     return Calibration(false_alarms, null_verdicts, recovery, thresholds,
                        float(np.mean(covered)) if covered else None, options.n_null, options.n_per_amplitude,
                        units, {"error_scale": options.error_scale, "seed": options.seed,
+                               "excess_noise": options.excess_noise,
                                "hypotheses": list(hypotheses), "amplitudes_sigma": list(options.amplitudes),
                                "likelihood": (options.likelihood.describe() if options.likelihood
                                               else "Gaussian")})

@@ -1,20 +1,17 @@
 """Two-body orbits: Kepler's equation, anomalies, radial-velocity amplitudes.
 
 Kepler's equation M = E − e sin E is solved for arrays of (M, e) at once by
-Halley's method in :func:`scipy.optimize.newton` (given f, f′ and f″, which
-it vectorises over array starting points), started from Danby's guess
-E₀ = M + 0.85 e sign(sin M) (Danby 1988, *Fundamentals of Celestial
-Mechanics*).
+Halley's method (cubic convergence; a plain numpy loop, since the fits call it
+thousands of times and a general root finder's overhead dominated), started
+from Danby's guess E₀ = M + 0.85 e sign(sin M) (Danby 1988, *Fundamentals of
+Celestial Mechanics*).
 """
 
 from __future__ import annotations
 
-import warnings
-
 import astropy.constants as const
 import astropy.units as u
 import numpy as np
-from scipy.optimize import newton
 
 __all__ = ["solve_kepler", "true_anomaly", "radial_velocity_semi_amplitude"]
 
@@ -51,12 +48,16 @@ def solve_kepler(mean_anomaly, eccentricity, tol: float = 1e-14) -> np.ndarray:
     start = wrapped + 0.85 * e * np.sign(np.sin(wrapped))
     if m.size == 0:
         return np.zeros(shape)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        ecc = newton(lambda E: E - e * np.sin(E) - wrapped, start,
-                     fprime=lambda E: 1 - e * np.cos(E),
-                     fprime2=lambda E: e * np.sin(E), tol=tol, maxiter=100)
-    ecc = np.asarray(ecc) + (m - wrapped)
+    ecc = start
+    for _ in range(100):  # Halley's step; converges in a few iterations for every e < 1 from Danby's start
+        sin_e, cos_e = np.sin(ecc), np.cos(ecc)
+        f = ecc - e * sin_e - wrapped
+        f1 = 1 - e * cos_e
+        step = f / (f1 - 0.5 * f * e * sin_e / f1)
+        ecc = ecc - step
+        if np.max(np.abs(step)) < tol:
+            break
+    ecc = ecc + (m - wrapped)
     return ecc.reshape(shape)
 
 

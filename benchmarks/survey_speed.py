@@ -138,7 +138,8 @@ def resumed(manifest: Path, n: int, work: Path) -> tuple:
     names = sorted(json.loads(p.read_text())["target"] for p in rows.glob("*.json")
                    if json.loads(p.read_text())["status"] == "done")
     folders = sorted(p.name for p in (out / "targets").iterdir())
-    staging = [p for p in out.rglob(".*")]
+    # hidden names are staging leftovers, except ttvkit's own output manifests (io.outdir)
+    staging = [p for p in out.rglob(".*") if p.name != ".ttvkit-manifest.json"]
     once = len(names) if names == folders and not staging else 0
     print(f"resumed: killed after {before} of {n} targets; after the re-run {len(names)} finished, "
           f"{len(folders)} folders, {len(staging)} staging leftovers", flush=True)

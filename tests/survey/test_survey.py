@@ -84,6 +84,16 @@ def test_summary_finds_the_injected_signals(survey):
             # 3σ of the fit's own 1σ: with six decays a miss by chance has odds of about 1 in 60
             assert row["dP_dt"] == pytest.approx(injected, abs=3 * row["dP_dt_err"])
             assert row["delta_bic[constant-period]"] > 10
+            # Q'_* column against the constant-phase-lag formula dP/dt = -(27 pi / 2 Q'_*) (Mp/M*) (R*/a)^5
+            # (Goldreich & Soter 1966, Icarus 5, 375; as used by Patra et al. 2017, AJ 154, 4; from
+            # memory), with the invented star of tests/survey/invented.py and a from Kepler's third law
+            k_dwarf = int(name.rsplit("-", 1)[1]) % 2 == 1
+            m_star, r_star = (0.78, 0.76) if k_dwarf else (1.02, 1.05)
+            m_planet = 1.3 * 9.5458e-4                                   # M_jup / M_sun (IAU 2015 nominal)
+            a_au = ((m_star + m_planet) * (2.0 / 365.25) ** 2) ** (1 / 3)  # Kepler, in au, yr, M_sun
+            r_over_a = r_star * 0.00465047 / a_au                         # R_sun / au (IAU 2015 nominal)
+            q = -27 * np.pi / 2 * (m_planet / m_star) * r_over_a ** 5 / (row["dP_dt"] / (365.25 * 86400e3))
+            assert row["Q_star"] == pytest.approx(q, rel=0.05)  # the check's median over draws, not the point
         elif kind == "modulation":
             assert row["best"] == "sinusoidal-modulation"
         else:

@@ -73,7 +73,10 @@ from ttvkit.physics.tides import (
 )
 from ttvkit.physics.uncertain import system_draws
 
-__all__ = ["Check", "checks_for", "CHECKS", "PHYSICAL_MODELS"]
+__all__ = ["Check", "checks_for", "CHECKS", "PHYSICAL_MODELS", "QUALITY_FACTOR_CHECK"]
+
+#: The name of the tidal-decay check that carries the required Q'_* (read by the survey's summary).
+QUALITY_FACTOR_CHECK = "tidal quality factor Q'_*"
 
 from ttvkit.diagnosis.models import PHYSICAL_MODELS  # noqa: E402  (re-exported: the report lists them)
 
@@ -170,7 +173,7 @@ def decay_checks(fit, system, term=None) -> list[Check]:
     try:
         out.append(_quality_factor_check(fit, system, rates))
     except MissingValueError as exc:
-        out.append(_untested("tidal quality factor Q'_*", exc))
+        out.append(_untested(QUALITY_FACTOR_CHECK, exc))
     period = system.orbit.period
     if period is not None:
         need = romer_acceleration(period, rate * u.ms / u.yr)
@@ -193,7 +196,7 @@ def _quality_factor_check(fit, system, rates) -> Check:
     q = quality_factor_from_decay_rate(system, fit.estimate("dP_dt").value * u.ms / u.yr)
     shrinking = rates[rates < 0]
     if shrinking.size == 0:
-        return Check("tidal quality factor Q'_*", q, None, "", "note",
+        return Check(QUALITY_FACTOR_CHECK, q, None, "", "note",
                      "no posterior draw has a shrinking period: Q'_* is not defined", False)
     draws = np.array([quality_factor_from_decay_rate(s, r * u.ms / u.yr)
                       for s, r in zip(_systems(system, shrinking.size), shrinking)])
@@ -208,12 +211,12 @@ def _quality_factor_check(fit, system, rates) -> Check:
             f"({source}); populations suggest 10^{band.log10_low:g}–10^{band.log10_high:g} for a "
             f"{band.star_type} ({band.source})")
     if tension_sigma(p_possible) >= FAIL_SIGMA:
-        return Check("tidal quality factor Q'_*", q, QUALITY_FACTOR_FLOOR, "", "fail",
+        return Check(QUALITY_FACTOR_CHECK, q, QUALITY_FACTOR_FLOOR, "", "fail",
                      text + f"; below the physical floor Q'_* ≥ {QUALITY_FACTOR_FLOOR:g}",
                      tension=tension_sigma(p_possible), probability=p_possible)
     sigma = tension_sigma(p_usual)
     outcome = "tension" if sigma >= TENSION_SIGMA else "pass"
-    return Check("tidal quality factor Q'_*", q, low, "", outcome,
+    return Check(QUALITY_FACTOR_CHECK, q, low, "", outcome,
                  text + (f"; outside that range at {sigma:.1f}σ (unusual, not excluded)" if outcome == "tension"
                          else ""), tension=sigma, probability=p_usual)
 

@@ -22,6 +22,7 @@ import warnings
 from dataclasses import replace
 from pathlib import Path
 
+from ttvkit.diagnosis.checks import QUALITY_FACTOR_CHECK
 from ttvkit.diagnosis.diagnose import DiagnosisOptions
 from ttvkit.errors import TtvkitError
 from ttvkit.io.readers import atomic_write_text
@@ -32,8 +33,8 @@ __all__ = ["survey_target", "read_target", "failure_row", "write_row", "diagnosi
 #: lowest ΔBIC among those that have it).
 KEY_NUMBERS = {"dP_dt": "dP_dt", "decay_timescale": "decay_timescale", "delta_P_over_P": "delta_P_over_P",
                "modulation_period_yr": "modulation_period", "minimum_companion_mass": "minimum_companion_mass"}
-#: Physical-check values the summary shows: a piece of the check's name → summary column.
-KEY_CHECKS = {"Q'_*": "Q_star"}
+#: Physical-check values the summary shows: the check's name → summary column.
+KEY_CHECKS = {QUALITY_FACTOR_CHECK: "Q_star"}
 
 
 def folders(out: Path) -> dict:
@@ -56,7 +57,21 @@ def survey_target(target, out: "str | Path", options: DiagnosisOptions) -> tuple
         row = failure_row(target.name, exc)
     row["seconds"] = round(time.perf_counter() - start, 3)
     write_row(where["rows"], row)
+    _return_freed_memory()
     return target.name, row["status"]
+
+
+def _return_freed_memory() -> None:
+    """Hand memory freed by the target's figures back to the system (glibc keeps freed arenas, so a
+    long-lived worker's resident size creeps up target by target); a no-op where there is no glibc."""
+    import ctypes
+    import gc
+
+    gc.collect()
+    try:
+        ctypes.CDLL("libc.so.6").malloc_trim(0)
+    except (OSError, AttributeError):
+        pass
 
 
 def _diagnose_into(target, where: dict, options: DiagnosisOptions) -> dict:
@@ -102,7 +117,7 @@ def diagnosis_row(name: str, diagnosis) -> dict:
                 break
     for piece, column in KEY_CHECKS.items():
         for a in assessments:
-            found = [c for c in getattr(a, "checks", []) if piece in getattr(c, "name", "")
+            found = [c for c in getattr(a, "checks", []) if getattr(c, "name", "") == piece
                      and getattr(c, "value", None) is not None]
             if found:
                 numbers[column] = {"value": _finite(found[0].value), "lower": None, "upper": None,

@@ -38,6 +38,20 @@ def test_force_replaces_only_ttvkits_files(tmp_path):
     assert not [p for p in out.iterdir() if p.name.startswith(".ttvkit-stage-")]
 
 
+def test_stage_left_by_a_killed_run_is_swept_by_the_next(tmp_path):
+    # SIGKILL cannot be caught: the killed run's staging folder stays until ttvkit next writes there
+    # (found by benchmarks/survey_speed.py's kill -9 and re-run)
+    out = tmp_path / "report"
+    with staged_folder(out, force=False) as stage:
+        (stage / "a.txt").write_text("first")
+    stale = out / ".ttvkit-stage-killed"
+    stale.mkdir()
+    (stale / "a.txt").write_text("half written")
+    with staged_folder(out, force=True) as stage:
+        (stage / "a.txt").write_text("second")
+    assert not stale.exists() and (out / "a.txt").read_text() == "second"
+
+
 def test_out_dot_works(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     for text in ("one", "two"):

@@ -138,6 +138,11 @@ def _commit(stage: Path, path: Path) -> None:
             shutil.rmtree(target)
         os.replace(stage / name, target)
     stage.rmdir()
+    # staging folders left by an earlier run that was killed outright (SIGKILL, a power cut): only
+    # ttvkit makes folders of this prefix, and this run's output has now replaced theirs
+    for stale in path.glob(_STAGE_PREFIX + "*"):
+        if stale.is_dir() and not stale.is_symlink():
+            shutil.rmtree(stale, ignore_errors=True)
     manifest = path / MANIFEST
     manifest.write_text(json.dumps({"written_by": "ttvkit", "files": new}, indent=1))
     apply_umask(manifest, directory=False)

@@ -90,7 +90,7 @@ def fit_shape(windows, initial: TransitShape, baseline_order: int = 1) -> Transi
         out = []
         for i, w in enumerate(windows):
             if models[i] is None:
-                models[i] = WindowModel(w.time, w.flux, w.flux_err, shape, baseline_order)
+                models[i] = WindowModel(w.time, w.flux, w.flux_err, shape, baseline_order, tabulated=False)
             m = models[i]
             for attr in ("rp", "a", "inc", "u"):
                 setattr(m.params, attr, getattr(p, attr))

@@ -10,8 +10,12 @@ points are supersampled over the exposure time (Kipping 2010, MNRAS 408,
 With the shape fixed, each window's mid-time is a one-dimensional search:
 the window's multiplicative polynomial baseline enters linearly and is
 solved by generalised least squares inside the search (profiled out).
-Each window's batman model is built once and re-evaluated with a new t0
-(shared/STYLE.md).  The uncertainty is the Fisher information of t0 with
+With the shape fixed, the model is one function of t − t0 for every window,
+so batman evaluates it once per shape on a fine grid
+(:func:`tabulated_transit`) and each trial t0 is a linear interpolation; the
+search's coarse grid is one interpolation and two matrix products for all
+its points.  A shape fit, which changes the shape between calls, calls
+batman directly (``WindowModel(tabulated=False)``).  The uncertainty is the Fisher information of t0 with
 the baseline profiled out, (F⁻¹)₀₀ with F = JᵀK⁻¹J, J the model's
 derivatives; K is diagonal (the flux errors, times the measured white
 ratio) or a Gaussian process (:mod:`ttvkit.lightcurves.noise`).  Each fit
@@ -29,6 +33,7 @@ the tests.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -36,7 +41,8 @@ from ttvkit.errors import InputError
 from ttvkit.lightcurves.search import search_mid_time
 from ttvkit.physics.geometry import contact_durations
 
-__all__ = ["TransitShape", "WindowModel", "MidTime", "fit_mid_time", "beta_factor", "shape_from_toml"]
+__all__ = ["TransitShape", "WindowModel", "MidTime", "fit_mid_time", "beta_factor", "shape_from_toml",
+           "tabulated_transit"]
 
 
 @dataclass(frozen=True)
@@ -102,9 +108,7 @@ class TransitShape:
 
     def durations(self) -> tuple[float, float]:
         """(T14, ingress duration τ) in days (Winn 2010 eqs. 14, 16, circular form)."""
-        t14, t23 = contact_durations(self.period, self.a_over_rstar, self.radius_ratio, self.impact_parameter,
-                                     np.radians(self.inclination), self.eccentricity, np.radians(self.omega))
-        return t14, 0.5 * (t14 - t23) if t23 > 0 else 0.5 * t14
+        return _durations(self)
 
     def batman_params(self, t0: float = 0.0):
         """A batman.TransitParams for this shape."""
@@ -116,6 +120,14 @@ class TransitShape:
         p.limb_dark = "quadratic"
         p.u = list(self.limb_darkening)
         return p
+
+
+@lru_cache(maxsize=256)
+def _durations(shape: TransitShape) -> tuple[float, float]:
+    """:meth:`TransitShape.durations`, once per shape (the shape is frozen; every window asks)."""
+    t14, t23 = contact_durations(shape.period, shape.a_over_rstar, shape.radius_ratio, shape.impact_parameter,
+                                 np.radians(shape.inclination), shape.eccentricity, np.radians(shape.omega))
+    return t14, 0.5 * (t14 - t23) if t23 > 0 else 0.5 * t14
 
 
 def shape_from_toml(path) -> TransitShape:
@@ -150,8 +162,63 @@ def shape_from_toml(path) -> TransitShape:
         raise InputError(f"{path}: [shape]: {exc}") from None
 
 
+def _supersampling(shape: TransitShape) -> dict:
+    """batman's keyword arguments for the shape's exposure.
+
+    batman places its n sub-points at linspace(-exp_time/2, exp_time/2, n), ends included, with
+    equal weights: an effective exposure of exp_time * n / (n - 1) (checked numerically in
+    tests/lightcurves/test_noise.py).  Asking for exposure * (n - 1) / n puts the sub-points at
+    the midpoints of n equal slices of the instrument's exposure.
+    """
+    if shape.exposure_time > 0 and shape.supersample > 1:
+        n = int(shape.supersample)
+        return {"supersample_factor": n, "exp_time": float(shape.exposure_time) * (n - 1) / n}
+    return {}
+
+
+#: Table spacing in units of the ingress duration τ.  Linear interpolation of the tabulated model
+#: errs by at most ~depth (h/τ)^1.5 next to a contact point (the flux deficit grows as x^1.5 there)
+#: and depth (h/τ)^2 / 8 elsewhere: at τ/500, about 1e-4 of the depth, two orders below any
+#: photometric noise (checked against direct batman calls in tests/lightcurves/test_midtime.py).
+TABLE_STEPS_PER_INGRESS = 500
+#: Most table points for one shape (a very short ingress would otherwise ask for millions).
+TABLE_MAX_POINTS = 400_000
+
+
+@lru_cache(maxsize=64)
+def tabulated_transit(shape: TransitShape) -> tuple[np.ndarray, np.ndarray]:
+    """The shape's batman model against time from mid-transit, on a grid fine enough to interpolate.
+
+    With the shape fixed, the model of a window is this one function of
+    ``t − t0`` (the orbit and the exposure do not change between transits),
+    so it is evaluated once per shape and each trial mid-time is a linear
+    interpolation (``np.interp``) instead of a batman call.  Outside the
+    table the flux is exactly 1.
+
+    Returns
+    -------
+    u, flux : ndarray
+        Days from mid-transit, and the relative flux there (1 at both ends).
+    """
+    import batman
+
+    t14, tau = shape.durations()
+    step = max(tau / TABLE_STEPS_PER_INGRESS, (t14 + 2 * shape.exposure_time) / TABLE_MAX_POINTS)
+    half = 0.6 * t14 + shape.exposure_time + 4 * step
+    p = shape.batman_params(0.0)
+    for _ in range(8):     # widen until the table ends out of transit (eccentric or grazing shapes)
+        u = np.arange(-half, half + step / 2, step)
+        flux = batman.TransitModel(p, u, **_supersampling(shape)).light_curve(p)
+        if flux[0] == 1.0 and flux[-1] == 1.0:
+            break
+        half *= 1.5
+    u.setflags(write=False)
+    flux.setflags(write=False)
+    return u, flux
+
+
 class WindowModel:
-    """A window's batman model, built once and re-evaluated for trial mid-times.
+    """A window's transit model, built once and re-evaluated for trial mid-times.
 
     Parameters
     ----------
@@ -159,37 +226,51 @@ class WindowModel:
     shape : TransitShape
     baseline_order : int
         Degree of the multiplicative polynomial baseline (profiled out).
+    tabulated : bool
+        Interpolate the shape's tabulated batman model
+        (:func:`tabulated_transit`, the fast default for a fixed shape)
+        instead of calling batman for each trial; ``False`` when the shape
+        changes between calls (shape fits change ``params``).
     """
 
-    def __init__(self, time, flux, flux_err, shape: TransitShape, baseline_order: int = 1):
+    def __init__(self, time, flux, flux_err, shape: TransitShape, baseline_order: int = 1, tabulated: bool = True):
         import batman
 
         self.time = np.asarray(time, float)
         self.flux = np.asarray(flux, float)
         self.weight = 1.0 / np.asarray(flux_err, float)
         self.shape = shape
-        self.centre = float(np.mean(self.time))
-        self.params = shape.batman_params(self.centre)
-        kw = {}
-        if shape.exposure_time > 0 and shape.supersample > 1:
-            n = int(shape.supersample)
-            # batman places its n sub-points at linspace(-exp_time/2, exp_time/2, n), ends included, with
-            # equal weights: an effective exposure of exp_time * n / (n - 1) (checked numerically in
-            # tests/lightcurves/test_noise.py).  Asking for exposure * (n - 1) / n puts the sub-points at
-            # the midpoints of n equal slices of the instrument's exposure.
-            kw = {"supersample_factor": n, "exp_time": float(shape.exposure_time) * (n - 1) / n}
+        self.centre = float(self.time.sum()) / max(self.time.size, 1)
+        self.relative = self.time - self.centre
+        self.table = tabulated_transit(shape) if tabulated else None
         # batman models the time relative to t0 internally; pass times relative to the window centre
-        self.model = batman.TransitModel(self.params, self.time - self.centre, **kw)
-        x = (self.time - self.centre) / max(np.ptp(self.time), 1e-9)
-        self.basis = np.vander(x, baseline_order + 1, increasing=True)
+        self.params = None if tabulated else shape.batman_params(self.centre)
+        self.model = None if tabulated else batman.TransitModel(self.params, self.time - self.centre,
+                                                                **_supersampling(shape))
+        x = self.relative / max(float(self.time.max() - self.time.min()), 1e-9)
+        self.basis = x[:, None] ** np.arange(baseline_order + 1)     # columns 1, x, x², ...
         self.flux_w = self.flux * self.weight
         self.design_t = (self.basis * self.weight[:, None]).T     # [k, n]: weighted basis, rows
         self.yy = float(self.flux_w @ self.flux_w)
         self.evaluations = 0
         self._last = None
+        # White noise: AᵀK⁻¹A = Σ m² w² bᵢbⱼ and AᵀK⁻¹y = Σ m w² f bᵢ are two products with fixed
+        # matrices, for one trial model or a stack of them (the search's grid in one go)
+        w2 = self._w2 = self.weight ** 2
+        k = self.basis.shape[1]
+        self._pairs = ((w2[:, None] * self.basis)[:, :, None] * self.basis[:, None, :]).reshape(-1, k * k)
+        self._cross = (w2 * self.flux)[:, None] * self.basis
+        self._white = True      # GPWindowModel: False (its normal equations go through the GP)
 
     def light_curve(self, t0: float) -> np.ndarray:
         """The transit model (no baseline) for mid-time ``t0`` (BJD_TDB); the last one is kept."""
+        if self.table is not None:
+            if self._last is not None and self._last[0] == t0:
+                return self._last[1]
+            self.evaluations += 1
+            m = np.interp(self.relative - (t0 - self.centre), *self.table, left=1.0, right=1.0)
+            self._last = (t0, m)
+            return m
         p = self.params
         key = (t0, p.rp, p.a, p.inc, p.ecc, p.w, *p.u)    # fit_shape changes the shape between calls
         if self._last is not None and self._last[0] == key:
@@ -202,7 +283,7 @@ class WindowModel:
 
     def metric(self, x: np.ndarray) -> np.ndarray:
         """K⁻¹ x for the noise covariance K (here diagonal: the flux errors squared)."""
-        w2 = self.weight ** 2
+        w2 = self._w2
         return x * (w2[:, None] if np.ndim(x) == 2 else w2)
 
     def _normal(self, m: np.ndarray):
@@ -212,15 +293,35 @@ class WindowModel:
 
     def _solve(self, m: np.ndarray) -> np.ndarray:
         """Baseline coefficients for the transit model ``m``."""
-        normal, rhs = self._normal(m)
+        if self._white:
+            normal, rhs = ((m * m) @ self._pairs).reshape(len(self._cross[0]), -1), m @ self._cross
+        else:
+            normal, rhs = self._normal(m)
         if normal.shape == (2, 2):  # the usual linear baseline: Cramer's rule, no LAPACK call
             det = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
             return np.array([normal[1, 1] * rhs[0] - normal[0, 1] * rhs[1],
                              normal[0, 0] * rhs[1] - normal[1, 0] * rhs[0]]) / det
         return np.linalg.solve(normal, rhs)
 
+    def chi2_many(self, t0s) -> np.ndarray:
+        """:meth:`chi2` for several trial mid-times (one interpolation and two products for all of them)."""
+        t0s = np.asarray(t0s, float)
+        if self.table is None or not self._white:
+            return np.array([self.chi2(t) for t in t0s])
+        shifted = self.relative[None, :] - (t0s - self.centre)[:, None]
+        m = np.interp(shifted.ravel(), *self.table, left=1.0, right=1.0).reshape(shifted.shape)
+        self.evaluations += t0s.size
+        return self.yy - _quadratic_forms((m * m) @ self._pairs, m @ self._cross)
+
     def chi2(self, t0: float) -> float:
         """Profile χ² = yᵀK⁻¹y − (AᵀK⁻¹y)ᵀ(AᵀK⁻¹A)⁻¹(AᵀK⁻¹y): the baseline solved by least squares."""
+        if self._white:
+            m = self.light_curve(t0)
+            normal, rhs = ((m * m) @ self._pairs).tolist(), (m @ self._cross).tolist()
+            if len(rhs) == 2:     # the usual linear baseline, in Python floats: the refinement's hot path
+                a, b, _, d = normal
+                return self.yy - (d * rhs[0] ** 2 - 2 * b * rhs[0] * rhs[1] + a * rhs[1] ** 2) / (a * d - b * b)
+            return self.yy - float(_quadratic_forms(np.array([normal]), np.array([rhs]))[0])
         normal, rhs = self._normal(self.light_curve(t0))
         if normal.shape == (2, 2):  # the quadratic form in closed form: this is the hot path
             det = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
@@ -236,6 +337,18 @@ class WindowModel:
         model = (m[:, None] * self.basis) @ self._solve(m)
         r = (self.flux - model) * self.weight
         return float(r @ r), model
+
+
+def _quadratic_forms(normal: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+    """rᵀN⁻¹r for a stack of k×k normal matrices (flattened, [G, k²]) and right-hand sides [G, k]."""
+    k = rhs.shape[1]
+    if k == 1:
+        return rhs[:, 0] ** 2 / normal[:, 0]
+    if k == 2:   # the usual linear baseline: the closed form, no LAPACK call (the hot path)
+        a, b, d = normal[:, 0], normal[:, 1], normal[:, 3]
+        r0, r1 = rhs[:, 0], rhs[:, 1]
+        return (d * r0 ** 2 - 2 * b * r0 * r1 + a * r1 ** 2) / (a * d - b * b)
+    return np.einsum("gi,gi->g", rhs, np.linalg.solve(normal.reshape(-1, k, k), rhs[:, :, None])[:, :, 0])
 
 
 @dataclass(frozen=True)
@@ -284,17 +397,23 @@ def beta_factor(residuals: np.ndarray, sigma: np.ndarray, bin_sizes) -> float:
     """
     r = np.asarray(residuals, float)
     r = r - r.mean()
-    s1 = np.sqrt(r @ r / r.size)
+    s1 = float(np.sqrt(r @ r / r.size))
+    total = np.cumsum(r)      # bin sums as differences of the running sum: no reshape per bin size
     betas = []
     for n in bin_sizes:
         n = int(n)
         m = r.size // n
         if n < 2 or m < 3:
             continue
-        binned = r[: m * n].reshape(m, n).sum(axis=1) / n
-        binned = binned - binned.sum() / m
+        ends = total[n - 1:m * n:n]
+        binned = np.empty(m)
+        binned[0] = ends[0]
+        np.subtract(ends[1:], ends[:-1], out=binned[1:])
+        binned /= n
+        mean = float(binned.sum()) / m
+        rms = np.sqrt(max(float(binned @ binned) / m - mean * mean, 0.0))
         expected = s1 / np.sqrt(n) * np.sqrt(m / (m - 1))
-        betas.append(np.sqrt(binned @ binned / m) / expected)
+        betas.append(rms / expected)
     if not betas:
         return 1.0
     betas.sort()
@@ -316,15 +435,27 @@ def _curvature_and_depth(model: WindowModel, t0: float, h: float):
     k = basis.shape[1]
     base = basis @ model._solve(m0)
     slope = (model.light_curve(t0 + h) - model.light_curve(t0 - h)) / (2 * h) * base
-    x = np.column_stack([slope, m0[:, None] * basis, basis, (m0 - 1) * base, model.flux])
+    x = np.empty((m0.size, 2 * k + 3))
+    x[:, 0] = slope
+    np.multiply(m0[:, None], basis, out=x[:, 1:k + 1])
+    x[:, k + 1:2 * k + 1] = basis
+    x[:, 2 * k + 1] = (m0 - 1) * base
+    x[:, 2 * k + 2] = model.flux
     g = x.T @ model.metric(x)     # one K⁻¹ for every column: timing, depth and data
+    # Both systems in one solve: a block-diagonal matrix, the timing block (rows 1..k) and the
+    # depth block (rows k+1..2k+1), with the right-hand sides of each kept to its own block
+    n = 2 * k + 1
+    block = np.zeros((n, n))
+    block[:k, :k] = g[1:k + 1, 1:k + 1]
+    block[k:, k:] = g[k + 1:2 * k + 2, k + 1:2 * k + 2]
+    rhs = np.zeros((n, 3))
+    rhs[:k, 0] = g[1:k + 1, 0]
+    rhs[k:, 1] = g[k + 1:2 * k + 2, -1]
+    rhs[-1, 2] = 1.0
     try:
-        fr = np.linalg.solve(g[1:k + 1, 1:k + 1], g[1:k + 1, 0])
-        variance = 1.0 / float(g[0, 0] - g[0, 1:k + 1] @ fr)
-        idx = np.arange(k + 1, 2 * k + 2)
-        rhs = np.column_stack([g[idx, -1], np.eye(k + 1)[:, -1]])
-        sol = np.linalg.solve(g[np.ix_(idx, idx)], rhs)
-        depth, depth_var = float(sol[-1, 0]), float(sol[-1, 1])
+        sol = np.linalg.solve(block, rhs)
+        variance = 1.0 / float(g[0, 0] - g[0, 1:k + 1] @ sol[:k, 0])
+        depth, depth_var = float(sol[-1, 1]), float(sol[-1, 2])
     except np.linalg.LinAlgError:
         variance, depth, depth_var = np.nan, 0.0, np.inf
     white = float(np.sqrt(variance)) if variance > 0 else np.nan
@@ -370,7 +501,7 @@ def fit_mid_time(window, shape: TransitShape, search: float | None = None, basel
     cadence = float(window.time[-1] - window.time[0]) / max(window.time.size - 1, 1)
     expected = float(np.mean(err)) / max(shape.radius_ratio ** 2, 1e-6) * np.sqrt(tau * cadence / 2)
     tol = max(min(expected / 50, tau * 1e-3), 1e-8)
-    offset, at_bound = search_mid_time(model.chi2, window.predicted, half, tol)
+    offset, at_bound = search_mid_time(model.chi2, window.predicted, half, tol, model.chi2_many)
     t_best = float(window.predicted + offset)
     chi2 = model.chi2(t_best)     # before the derivative: the kept model is t_best's
     white, depth, depth_error, resid = _curvature_and_depth(model, t_best, max(tau / 10, 1e-6))

@@ -143,6 +143,7 @@ class GPWindowModel(WindowModel):
         self.gp.compute(self.time - self.centre, diag=err ** 2, quiet=True)
         self.kinv_y = self.gp.apply_inverse(self.flux)
         self.yy = float(self.flux @ self.kinv_y)
+        self._white = False
 
     def metric(self, x: np.ndarray) -> np.ndarray:
         """K⁻¹ x (celerite2's O(N) solve)."""

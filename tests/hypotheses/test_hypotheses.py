@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from ttvkit import InputError
-from ttvkit.hypotheses import TimingData, get_hypothesis
+from ttvkit.hypotheses import HYPOTHESIS_NAMES, TimingData, get_hypothesis
 from ttvkit.hypotheses.base import HostContext
 from ttvkit.hypotheses.light_time import light_time_delay
 
@@ -103,3 +103,14 @@ def test_combinations_and_names():
         get_hypothesis("tidal-wobble")
     with pytest.raises(InputError, match="j must be"):
         get_hypothesis("near-resonant-perturber(j=x)")
+
+
+@pytest.mark.parametrize("name", HYPOTHESIS_NAMES)
+def test_every_parameter_has_a_symbol_for_figures(name):
+    # Figures for a paper label axes with symbols (dP/dE, P₃, e′ cos ω′), never the code's
+    # names (ttv_cos_amplitude); common practice, no source.
+    from ttvkit.hypotheses.base import SYMBOLS
+
+    for p in get_hypothesis(name).parameters():
+        assert p.name in SYMBOLS, f"{name}: parameter {p.name} has no symbol"
+        assert "_" not in p.symbol, p.symbol

@@ -4,6 +4,7 @@ These are checks of ttvkit's own file handling and of the executor protocol (``s
 ``concurrent.futures``, Python standard library); no outside value applies.
 """
 
+import json
 import warnings
 from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
@@ -129,3 +130,43 @@ def test_cli_bad_manifest_is_one_line_and_status_2(inputs, tmp_path, capsys):
         status = main(["survey", str(bad), "--out", str(tmp_path / "o")])
     err = capsys.readouterr().err.strip()
     assert status == 2 and len(err.splitlines()) == 1 and "column 'system'" in err
+
+
+def test_calibration_per_target_equals_a_single_target_calibration(inputs, tmp_path):
+    # The survey's calibration of a target must be the calibration one would run on that target
+    # alone (same options and seed: the same simulated tables), and a survey finished without a
+    # calibration runs its targets again when one is asked.  Small counts keep the test fast; the
+    # rates themselves are checked in tests/diagnosis (injection-recovery against known truth).
+    from survey.invented import TEST_HYPOTHESES
+
+    from ttvkit.diagnosis import DiagnosisOptions
+    from ttvkit.diagnosis.calibration import CalibrationOptions, calibrate
+    from ttvkit.survey.task import read_target
+
+    targets = read_manifest(inputs)[:1]
+    options = DiagnosisOptions(sampled=False, hypotheses=TEST_HYPOTHESES, now=2461000.5, progress=False)
+    out = tmp_path / "out"
+    first = run_survey(targets, out, options, executor=_MapOnly(), progress=False, say=lambda *a: None)
+    assert first.ran == 1 and "false_alarm_rate" not in first.summary.columns
+    calibration = CalibrationOptions(n_null=6, n_per_amplitude=3, amplitudes=(3.0, 8.0), seed=5)
+    run = run_survey(targets, out, options, executor=_MapOnly(), progress=False, say=lambda *a: None,
+                     calibration=calibration)
+    assert (run.ran, run.skipped, run.failed) == (1, 0, 0)
+    for i, target in enumerate(targets):
+        written = json.loads((out / "calibration" / f"{target.name}.json").read_text())
+        alone = calibrate(read_target(target)[0], calibration, executor=_MapOnly(), progress=False)
+        assert written == json.loads(json.dumps(alone.to_dict()))
+        assert run.summary["false_alarm_rate"].iloc[i] == alone.false_alarms["any"]
+        assert run.summary["calibration"].iloc[i] == f"calibration/{target.name}.json"
+    found = run.summary["decay_found_half_the_time"]
+    assert (found.isna() | (found < 0)).all()    # a decay: a shrinking period, in ms/yr
+    assert "false alarms" in (out / "index.html").read_text()
+    again = run_survey(targets, out, options, executor=_MapOnly(), progress=False, say=lambda *a: None,
+                       calibration=calibration)
+    assert (again.ran, again.skipped) == (0, 1)
+
+
+def test_cli_refuses_a_calibration_too_small_to_mean_anything(inputs, tmp_path, capsys):
+    assert main(["survey", str(inputs), "--out", str(tmp_path / "out"), "--calibrate", "3"]) == 2
+    err = capsys.readouterr().err
+    assert "--calibrate 3" in err and "at least 10" in err and "Traceback" not in err

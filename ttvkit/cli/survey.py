@@ -11,6 +11,7 @@ examples:
   ttvkit survey manifest.csv --out survey
   ttvkit survey targets/ --out survey --workers 4 --no-sample
   ttvkit survey manifest.csv --out survey --scheduler tcp://10.0.0.5:8786
+  ttvkit survey manifest.csv --out survey --no-sample --calibrate 20
 
 A manifest is a CSV or ECSV with columns target, table, system (paths
 relative to the manifest) and, optionally, per-target options: sampled,
@@ -43,6 +44,10 @@ def add_commands(sub) -> None:
     p.add_argument("--now", type=float, metavar="BJD_TDB",
                    help="start the forecasts at this BJD_TDB (default: the present)")
     p.add_argument("--robust", action="store_true", help="Student-t likelihood (outliers cost little)")
+    p.add_argument("--calibrate", type=int, metavar="N", default=0,
+                   help="also calibrate each target's verdict: N constant-period tables and N at each of 5 "
+                        "injected decay rates, with the target's epochs and errors (slow: about 6N "
+                        "unsampled diagnoses a target); adds false_alarm_rate and decay_found_half_the_time")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
     p.set_defaults(func=_cmd_survey)
 
@@ -58,8 +63,17 @@ def _cmd_survey(args) -> int:
     options = DiagnosisOptions(sampled=not args.no_sample, n_steps=args.steps, seed=args.seed,
                                forecast_years=args.years, now=args.now, progress=False,
                                likelihood=Likelihood("student-t") if args.robust else None)
+    calibration = None
+    if args.calibrate:
+        from ttvkit.diagnosis.calibration import CalibrationOptions
+
+        if args.calibrate < 10:
+            raise InputError(f"--calibrate {args.calibrate}: a rate from fewer than 10 simulated tables says "
+                             "little; give at least 10 (20 or more for a rate to quote)")
+        calibration = CalibrationOptions(n_null=args.calibrate, n_per_amplitude=args.calibrate, seed=args.seed,
+                                         likelihood=options.likelihood)
     run = run_survey(args.targets, args.out, options, scheduler=args.scheduler, n_workers=args.workers,
-                     redo=args.redo, progress=not args.no_progress)
+                     redo=args.redo, progress=not args.no_progress, calibration=calibration)
     print(f"survey: {run.ran} diagnosed now, {run.skipped} finished earlier, {run.failed} failed")
     for _, row in run.summary.iterrows():
         what = row["best"] if row["status"] == "done" else f"failed: {row['error']}"

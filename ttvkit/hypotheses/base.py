@@ -53,6 +53,21 @@ class Parameter:
     to_display: float = 1.0
     periodic: float | None = None
 
+    @property
+    def symbol(self) -> str:
+        """The parameter's symbol for figure axes (its name where it has none)."""
+        return SYMBOLS.get(self.name, self.name)
+
+
+#: Symbols for figure axes: a plot for a paper shows dP/dE, not dP_dE.
+SYMBOLS = {"T0": "T₀", "P": "P", "dP_dE": "dP/dE", "light_time_amplitude": "A (light time)",
+           "companion_period": "P₃", "sqrt_e_cos_omega": "√e cos ω", "sqrt_e_sin_omega": "√e sin ω",
+           "mean_anomaly0": "M₀", "sin_amplitude": "A cos φ", "cos_amplitude": "A sin φ",
+           "modulation_period": "P (modulation)", "perturber_mass": "m′", "perturber_period": "P′",
+           "perturber_ecosw": "e′ cos ω′", "perturber_esinw": "e′ sin ω′", "perturber_longitude": "λ′ − λ",
+           "e_cos_omega0": "e cos ω₀", "e_sin_omega0": "e sin ω₀", "domega_dE": "dω/dE",
+           "ttv_sin_amplitude": "TTV sine part", "ttv_cos_amplitude": "TTV cosine part"}
+
 
 @dataclass(frozen=True)
 class Derived:

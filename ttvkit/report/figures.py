@@ -184,15 +184,15 @@ def corner_figure(diagnosis) -> Figure:
     cols, labels = [], []
     for i, p in enumerate(params):
         v = draws[:, i] * p.to_display
-        unit = p.unit if p.unit != "BJD_TDB" else "d"
+        unit = {"BJD_TDB": "d", "Mearth": "M⊕"}.get(p.unit, p.unit)
         if p.name in ("T0", "P"):  # seconds from the median: days would show only noise digits
             v = (v - np.median(v)) * DAY_S
-            labels.append(f"{p.name} − median (s)")
+            labels.append(f"{p.symbol} − median (s)")
         elif np.median(np.abs(v)) > 100 * max(np.std(v), 1e-300):  # a large offset: show the spread
             v = v - np.median(v)
-            labels.append(f"{p.name} − median ({unit})" if unit else f"{p.name} − median")
+            labels.append(f"{p.symbol} − median ({unit})" if unit else f"{p.symbol} − median")
         else:
-            labels.append(f"{p.name} ({unit})" if unit else p.name)
+            labels.append(f"{p.symbol} ({unit})" if unit else p.symbol)
         cols.append(v)
     with _style():
         fig = plt.figure(figsize=(7.0, 7.0))

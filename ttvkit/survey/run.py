@@ -46,7 +46,7 @@ class SurveyRun:
 
 def run_survey(targets, out: "str | Path", options: DiagnosisOptions | None = None, *, executor=None,
                scheduler: str | None = None, n_workers: int = 2, redo: bool = False, progress: bool = True,
-               say=print) -> SurveyRun:
+               calibration=None, say=print) -> SurveyRun:
     """Diagnose every target of a survey into its own report folder and write one summary.
 
     Parameters
@@ -72,6 +72,12 @@ def run_survey(targets, out: "str | Path", options: DiagnosisOptions | None = No
         Run finished targets again (their folders are replaced).
     progress : bool
         Show a progress bar.
+    calibration : CalibrationOptions, optional
+        Also calibrate every target's verdict on its own epochs and errors
+        (:func:`ttvkit.diagnosis.calibration.calibrate`, run inside the
+        target's task): ``calibration/NAME.json``, and the summary columns
+        ``false_alarm_rate`` and ``decay_found_half_the_time`` (ms/yr).  A
+        target finished without a calibration is run again when one is asked.
     say : callable
         Progress lines.
 
@@ -83,11 +89,11 @@ def run_survey(targets, out: "str | Path", options: DiagnosisOptions | None = No
     targets = load_targets(targets)
     out = _prepare(Path(out), targets)
     where = folders(out)
-    finished = _finished(where, targets) if not redo else set()
+    finished = _finished(where, targets, calibration is not None) if not redo else set()
     todo = [t for t in targets if t.name not in finished]
     say(f"survey: {len(targets)} targets; {len(finished)} already finished, {len(todo)} to diagnose")
     if todo:
-        _run_tasks(todo, out, options, executor, scheduler, n_workers, progress)
+        _run_tasks(todo, out, options, executor, scheduler, n_workers, progress, calibration)
     rows = read_rows(where["rows"], [t.name for t in targets])
     missing = {t.name for t in targets} - {r["target"] for r in rows}
     for name in sorted(missing):  # a task lost with its worker and not reported: say so, never skip silently
@@ -126,21 +132,25 @@ def _prepare(out: Path, targets) -> Path:
     return out
 
 
-def _finished(where: dict, targets) -> set:
-    """Targets whose row says done and whose report folder is in place."""
+def _finished(where: dict, targets, calibrated: bool = False) -> set:
+    """Targets whose row says done and whose report folder (and calibration, if asked) is in place."""
     done = set()
     for t in targets:
         row = where["rows"] / f"{t.name}.json"
         if row.is_file() and (where["targets"] / t.name / "report.html").is_file():
             try:
-                if json.loads(row.read_text(encoding="utf-8"))["status"] == "done":
+                content = json.loads(row.read_text(encoding="utf-8"))
+                if content["status"] == "done" and (
+                        not calibrated or (content.get("calibration")
+                                           and (where["calibration"] / f"{t.name}.json").is_file())):
                     done.add(t.name)
             except (ValueError, KeyError):
                 pass  # an unreadable row is not a finished target: run it again
     return done
 
 
-def _run_tasks(todo, out: Path, options, executor, scheduler, n_workers: int, progress: bool) -> None:
+def _run_tasks(todo, out: Path, options, executor, scheduler, n_workers: int, progress: bool,
+               calibration=None) -> None:
     from tqdm.auto import tqdm
 
     own = None
@@ -149,7 +159,7 @@ def _run_tasks(todo, out: Path, options, executor, scheduler, n_workers: int, pr
         executor = own
     bar = tqdm(total=len(todo), desc="survey", unit="target", disable=not progress)
     try:
-        for name, status in _completed(executor, todo, out, options):
+        for name, status in _completed(executor, todo, out, options, calibration):
             bar.update(1)
             bar.set_postfix_str(f"{name}: {status}", refresh=False)
     finally:
@@ -177,10 +187,11 @@ def _dask_client(scheduler: str | None, n_workers: int):
     return Client(cluster)
 
 
-def _completed(executor, todo, out: Path, options):
+def _completed(executor, todo, out: Path, options, calibration=None):
     """Yield ``(name, status)`` as tasks finish; a task that raised becomes a failure row."""
     if not hasattr(executor, "submit"):
-        yield from executor.map(survey_target, todo, [out] * len(todo), [options] * len(todo))
+        yield from executor.map(survey_target, todo, [out] * len(todo), [options] * len(todo),
+                                [calibration] * len(todo))
         return
     if _is_dask(executor):
         from distributed import as_completed
@@ -190,7 +201,7 @@ def _completed(executor, todo, out: Path, options):
         from concurrent.futures import as_completed
 
         extra = {}
-    pending = {executor.submit(survey_target, t, out, options, **extra): t.name for t in todo}
+    pending = {executor.submit(survey_target, t, out, options, calibration, **extra): t.name for t in todo}
     for future in as_completed(list(pending)):
         name = pending.pop(future)
         try:

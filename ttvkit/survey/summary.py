@@ -58,6 +58,8 @@ def summary_frame(rows: list):
         rec["warnings"] = " | ".join(row["warnings"])
         rec["error"] = row["error"]
         rec["report"] = row["report"]
+        if any(r.get("calibration") for r in rows):
+            rec["calibration"] = row.get("calibration", "")
         records.append(rec)
     frame = pd.DataFrame.from_records(records)
     frame.attrs["units"] = {n: next((r["numbers"][n]["unit"] for r in rows if n in r["numbers"]), "")
@@ -101,6 +103,13 @@ def write_index_html(rows: list, path: Path, title: str = "ttvkit survey") -> Pa
             what = f'<span class="failed">failed: {e(row["error"])}</span>'
         number = row["numbers"].get("dP_dt")
         rate = f"{number['value']:.3g} {e(number['unit'])}" if number and number["value"] is not None else ""
+        alarms, found = row["numbers"].get("false_alarm_rate"), row["numbers"].get("decay_found_half_the_time")
+        if alarms and alarms["value"] is not None:
+            rate += (f'<br><small><a href="{e(row.get("calibration", ""))}">calibration</a>: false alarms '
+                     f'{100 * alarms["value"]:.0f}%')
+            if found and found["value"] is not None:
+                rate += f'; a decay of {found["value"]:.3g} ms/yr is found half the time'
+            rate += "</small>"
         warn = "<br>".join(e(w) for w in row["warnings"])
         lines.append(f"<tr><td>{thumb}</td><td>{name}</td><td>{what}</td><td>{rate}</td>"
                      f"<td><small>{warn}</small></td></tr>")

@@ -38,12 +38,26 @@ KEY_CHECKS = {QUALITY_FACTOR_CHECK: "Q_star"}
 
 
 def folders(out: Path) -> dict:
-    """The survey's sub-folders: targets (report folders), rows (summary rows), thumbnails."""
-    return {"targets": out / "targets", "rows": out / "rows", "thumbnails": out / "thumbnails"}
+    """The survey's sub-folders: targets (report folders), rows (summary rows), thumbnails, calibration."""
+    return {"targets": out / "targets", "rows": out / "rows", "thumbnails": out / "thumbnails",
+            "calibration": out / "calibration"}
 
 
-def survey_target(target, out: "str | Path", options: DiagnosisOptions) -> tuple:
+class _InThisProcess:
+    """An executor that runs the calibration's simulations one after another where the task runs: a
+    survey's worker is already one of the machine's processes, and a pool inside it would oversubscribe."""
+
+    def map(self, fn, *iterables):
+        return map(fn, *iterables)
+
+
+def survey_target(target, out: "str | Path", options: DiagnosisOptions, calibration=None) -> tuple:
     """Diagnose one target into ``out/targets/NAME`` and write its row; returns ``(name, status)``.
+
+    With ``calibration`` (a :class:`~ttvkit.diagnosis.calibration.CalibrationOptions`), the
+    verdict is also calibrated on the target's own epochs and errors
+    (:func:`~ttvkit.diagnosis.calibration.calibrate`), into ``out/calibration/NAME.json``, and the
+    row carries its false-alarm rate and the decay rate it finds half the time.
 
     Never raises for a bad target: the error becomes the row (``status``
     ``"failed"``, with the message).
@@ -52,7 +66,7 @@ def survey_target(target, out: "str | Path", options: DiagnosisOptions) -> tuple
     where = folders(out)
     start = time.perf_counter()
     try:
-        row = _diagnose_into(target, where, options)
+        row = _diagnose_into(target, where, options, calibration)
     except Exception as exc:  # one target's failure is recorded, it never stops the survey
         row = failure_row(target.name, exc)
     row["seconds"] = round(time.perf_counter() - start, 3)
@@ -74,7 +88,7 @@ def _return_freed_memory() -> None:
         pass
 
 
-def _diagnose_into(target, where: dict, options: DiagnosisOptions) -> dict:
+def _diagnose_into(target, where: dict, options: DiagnosisOptions, calibration=None) -> dict:
     from ttvkit.errors import TtvkitWarning
     from ttvkit.pipeline import run_diagnosis
 
@@ -85,9 +99,33 @@ def _diagnose_into(target, where: dict, options: DiagnosisOptions) -> dict:
         run = run_diagnosis(table, system, folder, replace(options, **target.options, progress=False),
                             force=folder.exists(), say=lambda *a: None)
         _write_thumbnail(run.diagnosis, where["thumbnails"] / f"{target.name}.png")
+        numbers = _calibrate_into(table, calibration, where["calibration"], target.name) if calibration else {}
     row = diagnosis_row(target.name, run.diagnosis)
+    row["numbers"].update(numbers)
+    row["calibration"] = f"calibration/{target.name}.json" if calibration else ""
     row["warnings"] += [str(w.message) for w in caught if issubclass(w.category, TtvkitWarning)]
     return row
+
+
+def _calibrate_into(table, calibration, folder: Path, name: str) -> dict:
+    """Calibrate the verdict on this table's design; write the JSON; the summary's numbers from it."""
+    from ttvkit.diagnosis.calibration import calibrate
+    from ttvkit.hypotheses.base import TimingData
+    from ttvkit.hypotheses.ephemerides import MS_PER_YR_PER_S_PER_S
+
+    folder.mkdir(exist_ok=True)
+    result = calibrate(table, calibration, executor=_InThisProcess(), progress=False)
+    atomic_write_text(folder / f"{name}.json", json.dumps(result.to_dict(), indent=1) + "\n", overwrite=True)
+    numbers = {"false_alarm_rate": {"value": result.false_alarms["any"], "lower": None, "upper": None,
+                                    "unit": "", "from": "calibration"}}
+    if "orbital-decay" in result.thresholds:
+        half = result.thresholds["orbital-decay"]["50%"]
+        sigma, _ = result.amplitude_unit["orbital-decay"]     # dP/dE of 1 detectability sigma, d/epoch
+        period = TimingData.from_table(table).period
+        numbers["decay_found_half_the_time"] = {
+            "value": None if half is None else -half * sigma / period * MS_PER_YR_PER_S_PER_S,
+            "lower": None, "upper": None, "unit": "ms/yr", "from": "calibration"}
+    return numbers
 
 
 def read_target(target) -> tuple:
@@ -129,7 +167,7 @@ def diagnosis_row(name: str, diagnosis) -> dict:
             "hypotheses": {a.name: {"verdict": a.verdict, "delta_bic": _finite(a.delta_bic)}
                            for a in diagnosis.assessments},
             "numbers": numbers, "warnings": warning_text,
-            "report": f"targets/{name}/report.html", "thumbnail": f"thumbnails/{name}.png"}
+            "report": f"targets/{name}/report.html", "thumbnail": f"thumbnails/{name}.png", "calibration": ""}
 
 
 def failure_row(name: str, exc: BaseException) -> dict:
@@ -137,7 +175,7 @@ def failure_row(name: str, exc: BaseException) -> dict:
     message = str(exc) if isinstance(exc, TtvkitError) else f"{type(exc).__name__}: {exc}"
     return {"target": name, "status": "failed", "error": " ".join(message.split()), "n_points": None,
             "best": "", "best_verdict": "", "summary": "", "hypotheses": {}, "numbers": {}, "warnings": [],
-            "report": "", "thumbnail": ""}
+            "report": "", "thumbnail": "", "calibration": ""}
 
 
 def write_row(rows: Path, row: dict) -> Path:

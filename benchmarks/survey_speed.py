@@ -42,11 +42,11 @@ def _options():
 
 
 def _client(n_workers: int):
-    from distributed import Client, LocalCluster
+    from distributed import Client
 
-    cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True, dashboard_address=":0",
-                           silence_logs=40)
-    client = Client(cluster)
+    from ttvkit.survey import start_local_cluster
+
+    client = Client(start_local_cluster(n_workers))   # the cluster run_survey makes for itself
     client.run(lambda: __import__("ttvkit.pipeline"))  # imports paid before the clock starts
     return client
 

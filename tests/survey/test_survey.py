@@ -30,11 +30,23 @@ def options():
 
 @pytest.fixture(scope="module")
 def cluster():
-    from distributed import Client, LocalCluster
+    from distributed import Client
 
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0",
-                      silence_logs=40) as local, Client(local) as client:
+    from ttvkit.survey import start_local_cluster
+
+    with start_local_cluster(2) as local, Client(local) as client:
         yield client
+
+
+def test_the_survey_cluster_runs_without_dask_profiler(survey, cluster):
+    # dask's profiler keeps every task's stack samples (distributed/profile.py): on a survey it grew
+    # each worker ~6 MB a target.  The cluster the survey makes for itself has it off, and after a
+    # whole survey no worker holds any profile.
+    import dask
+
+    assert set(cluster.run(lambda: dask.config.get("distributed.worker.profile.enabled")).values()) == {False}
+    held = cluster.run(lambda dask_worker: len(dask_worker.profile_keys) + len(dask_worker.profile_history))
+    assert set(held.values()) == {0}
 
 
 @pytest.fixture(scope="module")

@@ -10,8 +10,8 @@ finished targets and ends with every target exactly once.
 """
 
 from ttvkit.survey.manifest import OPTION_COLUMNS, SurveyTarget, load_targets, read_manifest, targets_from_folder
-from ttvkit.survey.run import MARKER, SurveyRun, run_survey
+from ttvkit.survey.run import MARKER, SurveyRun, run_survey, start_local_cluster
 from ttvkit.survey.task import read_target
 
 __all__ = ["run_survey", "SurveyRun", "SurveyTarget", "read_manifest", "targets_from_folder", "load_targets",
-           "read_target", "OPTION_COLUMNS", "MARKER"]
+           "read_target", "OPTION_COLUMNS", "MARKER", "start_local_cluster"]

@@ -27,7 +27,7 @@ from ttvkit.survey.manifest import load_targets
 from ttvkit.survey.summary import read_rows, summary_frame, write_index_html, write_summary_ecsv
 from ttvkit.survey.task import failure_row, folders, survey_target, write_row
 
-__all__ = ["run_survey", "SurveyRun", "MARKER"]
+__all__ = ["run_survey", "SurveyRun", "MARKER", "start_local_cluster"]
 
 #: The file that marks a folder as a survey's (a survey resumes only in a folder that has it).
 MARKER = "survey.json"
@@ -172,7 +172,7 @@ def _run_tasks(todo, out: Path, options, executor, scheduler, n_workers: int, pr
 
 
 def _dask_client(scheduler: str | None, n_workers: int):
-    from distributed import Client, LocalCluster
+    from distributed import Client
 
     if scheduler:
         try:
@@ -180,11 +180,26 @@ def _dask_client(scheduler: str | None, n_workers: int):
         except (OSError, TimeoutError, ValueError) as exc:
             raise InputError(f"cannot reach the dask scheduler at {scheduler!r} ({exc}); start it or check "
                              "the address (tcp://HOST:PORT)") from None
+    return Client(start_local_cluster(n_workers))
+
+
+def start_local_cluster(n_workers: int = 2):
+    """The survey's dask ``LocalCluster``: ``n_workers`` single-threaded processes, dask's profiler off.
+
+    dask's statistical profiler samples every worker's stack every 10 ms and keeps the samples of
+    every task; over a survey's many long tasks that grew each worker by ~6 MB a target (tracemalloc:
+    distributed/profile.py held 300 MB after 16 targets), so a survey's memory grew with its length.
+    A cluster of your own (``scheduler=``) should be started with
+    ``distributed.worker.profile.enabled: false`` for the same reason.
+    """
+    import dask
+    from distributed import LocalCluster
+
     if n_workers < 1:
         raise InputError(f"a survey needs at least one worker (got {n_workers})")
-    cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
-                           dashboard_address=":0", silence_logs=40)
-    return Client(cluster)
+    with dask.config.set({"distributed.worker.profile.enabled": False}):   # the nannies pass it on
+        return LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
+                            dashboard_address=":0", silence_logs=40)
 
 
 def _completed(executor, todo, out: Path, options, calibration=None):

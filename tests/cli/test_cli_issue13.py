@@ -46,6 +46,13 @@ def test_fit_prints_t0_to_its_error_and_records_edits_and_excess_noise(capsys):
     t0_line = next(line for line in out.splitlines() if line.strip().startswith("T0"))
     # T0's error is ~7e-5 d: it must be printed to 1e-6 d (the issue saw 2456000.3)
     assert len(t0_line.split()[1].split(".")[1]) >= 6
+    # every value starts in one column, also after a jitter named by a long literature reference
+    rows = [line for line in out.splitlines() if line.startswith("    ")]
+    names = list(d["parameters"]) + list(d["derived"])
+    start = 4 + max(len(n) for n in names) + 1
+    assert max(len(n) for n in names) > 24          # the case that broke the column
+    assert sorted(line[4:start].strip() for line in rows) == sorted(names)
+    assert all(line[start - 1] == " " and line[start] not in " " for line in rows), rows
     code, out, _ = run(["fit", str(WASP43), "--hypothesis", "orbital-decay", "--json", "--no-excess-noise",
                         "--ephemeris", "2457423.449697,0.813474037", *COLUMNS], capsys)
     assert "jitter" not in json.loads(out)["parameters"]

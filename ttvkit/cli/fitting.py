@@ -131,10 +131,12 @@ def _print_fit(d: dict) -> None:
     print(f"{d['hypothesis']}: chi2 = {d['chi2']:.2f} for {d['dof']} dof "
           f"(reduced {d['reduced_chi2']:.2f}); BIC {d['bic']:.2f}; AIC {d['aic']:.2f}; "
           f"{d['likelihood']}{'; sampled' if d['sampled'] else ''}")
+    # one column for every name: a literature table's per-source jitters carry long reference names
+    width = max([24] + [len(name) for section in ("parameters", "derived") for name in d[section]])
     for section in ("parameters", "derived"):
         print(f"  {section}:")
         for name, v in d[section].items():
-            print(f"    {name:24s} {format_value(v['value'], v['lower'], v['upper'])} {v['unit']}")
+            print(f"    {name:{width}s} {format_value(v['value'], v['lower'], v['upper'])} {v['unit']}")
     for w in d["warnings"]:
         print(f"  warning: {w}")
 

@@ -134,14 +134,16 @@ def test_cli_bad_manifest_is_one_line_and_status_2(inputs, tmp_path, capsys):
 
 def test_calibration_per_target_equals_a_single_target_calibration(inputs, tmp_path):
     # The survey's calibration of a target must be the calibration one would run on that target
-    # alone (same options and seed: the same simulated tables), and a survey finished without a
-    # calibration runs its targets again when one is asked.  Small counts keep the test fast; the
+    # alone with the target's hypotheses (same options and seed: the same simulated tables), and a
+    # survey finished without that calibration (none, or other settings) runs its targets again.  Small counts keep the test fast; the
     # rates themselves are checked in tests/diagnosis (injection-recovery against known truth).
     from survey.invented import TEST_HYPOTHESES
 
     from ttvkit.diagnosis import DiagnosisOptions
     from ttvkit.diagnosis.calibration import CalibrationOptions, calibrate
     from ttvkit.survey.task import read_target
+
+    from dataclasses import replace
 
     targets = read_manifest(inputs)[:1]
     options = DiagnosisOptions(sampled=False, hypotheses=TEST_HYPOTHESES, now=2461000.5, progress=False)
@@ -154,19 +156,48 @@ def test_calibration_per_target_equals_a_single_target_calibration(inputs, tmp_p
     assert (run.ran, run.skipped, run.failed) == (1, 0, 0)
     for i, target in enumerate(targets):
         written = json.loads((out / "calibration" / f"{target.name}.json").read_text())
-        alone = calibrate(read_target(target)[0], calibration, executor=_MapOnly(), progress=False)
+        alone = calibrate(read_target(target)[0], replace(calibration, hypotheses=TEST_HYPOTHESES),
+                          executor=_MapOnly(), progress=False)
         assert written == json.loads(json.dumps(alone.to_dict()))
         assert run.summary["false_alarm_rate"].iloc[i] == alone.false_alarms["any"]
         assert run.summary["calibration"].iloc[i] == f"calibration/{target.name}.json"
+        # the target's verdict fits TEST_HYPOTHESES: so do the simulated tables
+        assert written["settings"]["hypotheses"] == list(dict.fromkeys(("constant-period",) + TEST_HYPOTHESES))
     found = run.summary["decay_found_half_the_time"]
     assert (found.isna() | (found < 0)).all()    # a decay: a shrinking period, in ms/yr
+    assert "false_alarm_rate_err" not in run.summary.columns   # no error column for numbers without errors
     assert "false alarms" in (out / "index.html").read_text()
     again = run_survey(targets, out, options, executor=_MapOnly(), progress=False, say=lambda *a: None,
                        calibration=calibration)
     assert (again.ran, again.skipped) == (0, 1)
+    other = replace(calibration, n_null=7)    # other settings: the calibration is redone, not kept
+    third = run_survey(targets, out, options, executor=_MapOnly(), progress=False, say=lambda *a: None,
+                       calibration=other)
+    assert (third.ran, third.skipped) == (1, 0)
+    assert json.loads((out / "calibration" / f"{targets[0].name}.json").read_text())["n_null"] == 7
 
 
 def test_cli_refuses_a_calibration_too_small_to_mean_anything(inputs, tmp_path, capsys):
     assert main(["survey", str(inputs), "--out", str(tmp_path / "out"), "--calibrate", "3"]) == 2
     err = capsys.readouterr().err
     assert "--calibrate 3" in err and "at least 10" in err and "Traceback" not in err
+
+
+def test_a_failed_calibration_leaves_the_diagnosis_standing(inputs, tmp_path, monkeypatch):
+    from survey.invented import TEST_HYPOTHESES
+
+    import ttvkit.diagnosis.calibration as calibration_module
+    from ttvkit.diagnosis import DiagnosisOptions
+    from ttvkit.diagnosis.calibration import CalibrationOptions
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("simulated tables could not be drawn")
+
+    monkeypatch.setattr(calibration_module, "calibrate", broken)
+    options = DiagnosisOptions(sampled=False, hypotheses=TEST_HYPOTHESES, now=2461000.5, progress=False)
+    run = run_survey(read_manifest(inputs)[:1], tmp_path / "out", options, executor=_MapOnly(), progress=False,
+                     say=lambda *a: None, calibration=CalibrationOptions(n_null=10, n_per_amplitude=0))
+    row = run.summary.iloc[0]
+    assert row["status"] == "done" and row["best"] and "calibration" not in run.summary.columns
+    assert not list((tmp_path / "out" / "calibration").iterdir())
+    assert "the calibration failed: simulated tables could not be drawn" in row["warnings"]

@@ -73,6 +73,10 @@ class CalibrationOptions:
         needs excess-noise terms (:func:`~ttvkit.inference.excess_noise.decide_excess_noise`), so
         that the calibration runs the same verdict (True by default).
     seed : int
+    sampled : bool
+        Sample every simulated table's posteriors too (emcee, ``n_steps`` per walker), as
+        ``diagnose`` does by default; far slower.  False: least squares, as ``--no-sample``.
+    n_steps : int
     """
 
     n_null: int = 200
@@ -84,10 +88,14 @@ class CalibrationOptions:
     likelihood: object = None
     excess_noise: bool = True
     seed: int = 0
+    sampled: bool = False
+    n_steps: int = 2000
 
     def __post_init__(self):
         if self.n_null < 1 or self.n_per_amplitude < 0:
             raise InputError("calibration needs at least one null table and a non-negative count per amplitude")
+        if self.sampled and self.n_steps < 100:
+            raise InputError(f"a sampled calibration needs at least 100 steps per walker (got {self.n_steps})")
         if not self.error_scale > 0:
             raise InputError(f"error_scale must be positive (got {self.error_scale})")
         for name in self.inject:
@@ -167,7 +175,8 @@ _INJECTORS = {"orbital-decay": _decay_theta, "sinusoidal-modulation": _modulatio
 
 def _trial(job):
     """One simulated table → {hypothesis: verdict} and the decay fit's interval (picklable, top level)."""
-    data, base_theta, inject, amplitude, hypotheses, likelihood, error_scale, seed, truth_rate, excess = job
+    (data, base_theta, inject, amplitude, hypotheses, likelihood, error_scale, seed, truth_rate, excess,
+     sampled, n_steps) = job
     rng = np.random.default_rng(seed)
     hyp = get_hypothesis(inject or "constant-period")
     theta = _INJECTORS[inject](data, base_theta, amplitude) if inject else base_theta
@@ -175,7 +184,8 @@ def _trial(job):
     sim = replace(data, time=times)
     if excess:
         likelihood = decide_excess_noise(sim, likelihood).likelihood
-    comparison = compare(sim, hypotheses, likelihood, progress=False)
+    comparison = compare(sim, hypotheses, likelihood, sampled=sampled, n_steps=n_steps, seed=seed % 2 ** 32,
+                         progress=False)
     verdicts = {}
     for f in comparison.fits:
         verdict, _ = decide(f.name, comparison.delta_bic(f), bic_gain(f, comparison),
@@ -232,7 +242,7 @@ def calibrate(table, options: CalibrationOptions | None = None, *, executor=None
     jobs, labels = [], []
     for _ in range(options.n_null):
         jobs.append((data, base, None, 0.0, hypotheses, options.likelihood, options.error_scale,
-                     int(rng.integers(2 ** 63)), 0.0, options.excess_noise))
+                     int(rng.integers(2 ** 63)), 0.0, options.excess_noise, options.sampled, options.n_steps))
         labels.append((None, 0.0))
     for name in options.inject:
         sigma = units[name][0]
@@ -242,7 +252,8 @@ def calibrate(table, options: CalibrationOptions | None = None, *, executor=None
                 value = -amp * sigma if name == "orbital-decay" else amp * sigma
                 rate = value / base[1] * MS_PER_YR_PER_S_PER_S if name == "orbital-decay" else 0.0
                 jobs.append((data, base, name, value, hypotheses, options.likelihood, options.error_scale,
-                             int(rng.integers(2 ** 63)), rate, options.excess_noise))
+                             int(rng.integers(2 ** 63)), rate, options.excess_noise, options.sampled,
+                             options.n_steps))
                 labels.append((name, amp))
     own = executor is None
     if own:
@@ -276,7 +287,7 @@ def _summarise(results, labels, hypotheses, options, units) -> Calibration:
     return Calibration(false_alarms, null_verdicts, recovery, thresholds,
                        float(np.mean(covered)) if covered else None, options.n_null, options.n_per_amplitude,
                        units, {"error_scale": options.error_scale, "seed": options.seed,
-                               "excess_noise": options.excess_noise,
+                               "excess_noise": options.excess_noise, "sampled": options.sampled,
                                "hypotheses": list(hypotheses), "amplitudes_sigma": list(options.amplitudes),
                                "likelihood": (options.likelihood.describe() if options.likelihood
                                               else "Gaussian")})

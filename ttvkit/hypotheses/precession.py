@@ -20,6 +20,7 @@ import numpy as np
 
 from ttvkit._linear import weighted_lstsq
 from ttvkit.constants import YEAR_D
+from ttvkit.hypotheses._periodic import candidate_periods
 from ttvkit.hypotheses.base import Derived, Parameter, Term, TimingData
 from ttvkit.hypotheses.ephemerides import t0_period_bounds
 
@@ -54,8 +55,14 @@ class ApsidalPrecession(Term):
         n_epochs = max(np.ptp(data.epoch), 10.0)
         sign = np.where(data.secondary, 1.0, -1.0)
         out = []
-        for periods in (0.5, 1.0, 2.0, 4.0):
-            rate = 2 * np.pi / (periods * n_epochs)
+        # Rates of 0.5-4 turns over the baseline, and the residual periodogram's highest peaks over
+        # the whole prior range (down to 20 orbits a turn): without them least squares settled on the
+        # nearest local optimum and sampling found a better one (4 of 12 simulated tables gave a
+        # different verdict with and without sampling).
+        low_rate, high_rate = self._rate_range(data)
+        peaks = candidate_periods(data, residuals, count=6, shortest=2 * np.pi / high_rate * data.period)
+        turns = [2 * np.pi / (periods * n_epochs) for periods in (0.5, 1.0, 2.0, 4.0)]
+        for rate in turns + [float(np.clip(2 * np.pi * data.period / p, low_rate, high_rate)) for p in peaks]:
             amp = data.period / np.pi
             x = data.epoch + data.phase
             design = np.column_stack([np.ones_like(x), x, sign * amp * np.cos(rate * data.epoch),

@@ -43,9 +43,10 @@ class RedNoise:
     white_scale: float
     gain: float
 
-    def window_model(self, time, flux, flux_err, shape, baseline_order: int = 1) -> GPWindowModel:
+    def window_model(self, time, flux, flux_err, shape, baseline_order: int = 1,
+                     tabulated: bool = True) -> GPWindowModel:
         """A window's model with this GP's likelihood (``flux_err``: the given errors)."""
-        return GPWindowModel(time, flux, flux_err, shape, baseline_order, self)
+        return GPWindowModel(time, flux, flux_err, shape, baseline_order, self, tabulated)
 
     @property
     def detected(self) -> bool:
@@ -136,9 +137,9 @@ class GPWindowModel(WindowModel):
     ``flux_err`` are the given errors; the white term is ``red.white_scale`` times them.
     """
 
-    def __init__(self, time, flux, flux_err, shape, baseline_order: int, red: RedNoise):
+    def __init__(self, time, flux, flux_err, shape, baseline_order: int, red: RedNoise, tabulated: bool = True):
         err = np.asarray(flux_err, float) * red.white_scale
-        super().__init__(time, flux, err, shape, baseline_order)
+        super().__init__(time, flux, err, shape, baseline_order, tabulated)
         self.gp = _gp(red.amplitude, red.timescale)
         self.gp.compute(self.time - self.centre, diag=err ** 2, quiet=True)
         self.kinv_y = self.gp.apply_inverse(self.flux)

@@ -16,13 +16,14 @@ def mid_time_mcmc(window, shape: TransitShape, n_steps: int = 3000, n_walkers: i
     Returns the posterior median and standard deviation of the mid-time
     (days), without β inflation.  Uniform priors.  With ``red`` (a
     :class:`~ttvkit.lightcurves.noise.RedNoise`) the likelihood is that GP's.
+    The model is batman called at every step, not the fast path's table.
     """
     import emcee
 
     if red is None:
-        model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order)
+        model = WindowModel(window.time, window.flux, window.flux_err, shape, baseline_order, tabulated=False)
     else:
-        model = red.window_model(window.time, window.flux, window.flux_err, shape, baseline_order)
+        model = red.window_model(window.time, window.flux, window.flux_err, shape, baseline_order, tabulated=False)
     fast = fit_mid_time(window, shape, baseline_order=baseline_order, red=red)
     k = baseline_order + 1
     coef0 = model._solve(model.light_curve(fast.time))

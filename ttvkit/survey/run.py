@@ -25,7 +25,7 @@ from ttvkit.errors import InputError, OutputExistsError
 from ttvkit.io.readers import atomic_write_text
 from ttvkit.survey.manifest import load_targets
 from ttvkit.survey.summary import read_rows, summary_frame, write_index_html, write_summary_ecsv
-from ttvkit.survey.task import failure_row, folders, survey_target, write_row
+from ttvkit.survey.task import calibration_key, failure_row, folders, survey_target, write_row
 
 __all__ = ["run_survey", "SurveyRun", "MARKER", "start_local_cluster"]
 
@@ -76,8 +76,11 @@ def run_survey(targets, out: "str | Path", options: DiagnosisOptions | None = No
         Also calibrate every target's verdict on its own epochs and errors
         (:func:`ttvkit.diagnosis.calibration.calibrate`, run inside the
         target's task): ``calibration/NAME.json``, and the summary columns
-        ``false_alarm_rate`` and ``decay_found_half_the_time`` (ms/yr).  A
-        target finished without a calibration is run again when one is asked.
+        ``false_alarm_rate`` and ``decay_found_half_the_time`` (ms/yr).  It
+        fits the target's own hypotheses when the survey or the manifest row
+        names them (N-body ones left out), else the calibration's own set.  A
+        target finished without this calibration (none, or other settings)
+        is run again.
     say : callable
         Progress lines.
 
@@ -89,7 +92,7 @@ def run_survey(targets, out: "str | Path", options: DiagnosisOptions | None = No
     targets = load_targets(targets)
     out = _prepare(Path(out), targets)
     where = folders(out)
-    finished = _finished(where, targets, calibration is not None) if not redo else set()
+    finished = _finished(where, targets, calibration) if not redo else set()
     todo = [t for t in targets if t.name not in finished]
     say(f"survey: {len(targets)} targets; {len(finished)} already finished, {len(todo)} to diagnose")
     if todo:
@@ -132,8 +135,8 @@ def _prepare(out: Path, targets) -> Path:
     return out
 
 
-def _finished(where: dict, targets, calibrated: bool = False) -> set:
-    """Targets whose row says done and whose report folder (and calibration, if asked) is in place."""
+def _finished(where: dict, targets, calibration=None) -> set:
+    """Targets whose row says done and whose report folder (and the calibration asked, if any) is in place."""
     done = set()
     for t in targets:
         row = where["rows"] / f"{t.name}.json"
@@ -141,8 +144,8 @@ def _finished(where: dict, targets, calibrated: bool = False) -> set:
             try:
                 content = json.loads(row.read_text(encoding="utf-8"))
                 if content["status"] == "done" and (
-                        not calibrated or (content.get("calibration")
-                                           and (where["calibration"] / f"{t.name}.json").is_file())):
+                        calibration is None or (content.get("calibration_asked") == calibration_key(calibration)
+                                                and (where["calibration"] / f"{t.name}.json").is_file())):
                     done.add(t.name)
             except (ValueError, KeyError):
                 pass  # an unreadable row is not a finished target: run it again

@@ -42,6 +42,9 @@ def summary_frame(rows: list):
     for row in rows:
         hypotheses += [h for h in row["hypotheses"] if h not in hypotheses]
         numbers += [n for n in row["numbers"] if n not in numbers]
+    # an error column only for numbers that come with errors (Q_star and the calibration's do not)
+    with_errors = {n for n in numbers for row in rows
+                   if any(row["numbers"].get(n, {}).get(side) is not None for side in ("lower", "upper"))}
     records = []
     for row in rows:
         rec = {k: row[k] for k in _FIRST}
@@ -53,8 +56,9 @@ def summary_frame(rows: list):
         for n in numbers:
             entry = row["numbers"].get(n, {})
             rec[n] = _number(entry.get("value"))
-            lower, upper = _number(entry.get("lower")), _number(entry.get("upper"))
-            rec[f"{n}_err"] = float(np.nanmean([lower, upper])) if np.isfinite([lower, upper]).any() else np.nan
+            if n in with_errors:
+                lower, upper = _number(entry.get("lower")), _number(entry.get("upper"))
+                rec[f"{n}_err"] = float(np.nanmean([lower, upper])) if np.isfinite([lower, upper]).any() else np.nan
         rec["warnings"] = " | ".join(row["warnings"])
         rec["error"] = row["error"]
         rec["report"] = row["report"]

@@ -96,15 +96,42 @@ def _diagnose_into(target, where: dict, options: DiagnosisOptions, calibration=N
         warnings.simplefilter("always", TtvkitWarning)
         table, system = read_target(target)
         folder = where["targets"] / target.name
-        run = run_diagnosis(table, system, folder, replace(options, **target.options, progress=False),
-                            force=folder.exists(), say=lambda *a: None)
+        chosen = replace(options, **target.options, progress=False)
+        run = run_diagnosis(table, system, folder, chosen, force=folder.exists(), say=lambda *a: None)
         _write_thumbnail(run.diagnosis, where["thumbnails"] / f"{target.name}.png")
-        numbers = _calibrate_into(table, calibration, where["calibration"], target.name) if calibration else {}
     row = diagnosis_row(target.name, run.diagnosis)
-    row["numbers"].update(numbers)
-    row["calibration"] = f"calibration/{target.name}.json" if calibration else ""
     row["warnings"] += [str(w.message) for w in caught if issubclass(w.category, TtvkitWarning)]
+    if calibration is not None:
+        try:   # the diagnosis stands whatever happens to its calibration
+            row["numbers"].update(_calibrate_into(table, for_target(calibration, chosen, target),
+                                                  where["calibration"], target.name))
+            row["calibration"] = f"calibration/{target.name}.json"
+            row["calibration_asked"] = calibration_key(calibration)
+        except Exception as exc:
+            row["warnings"].append(f"the calibration failed: {' '.join(str(exc).split())}")
     return row
+
+
+def calibration_key(calibration) -> dict:
+    """What a calibration was asked for, as plain JSON (a resumed survey with other settings redoes it)."""
+    from dataclasses import asdict
+
+    wanted = {k: v for k, v in asdict(calibration).items() if k != "likelihood"}
+    wanted["likelihood"] = calibration.likelihood.describe() if calibration.likelihood else "Gaussian"
+    return json.loads(json.dumps(wanted))
+
+
+def for_target(calibration, chosen: DiagnosisOptions, target):
+    """The calibration of this target's verdict: its own hypotheses (the N-body ones left out: an
+    integration per simulated table) when the survey or its manifest row names them, its own seed."""
+    from ttvkit.hypotheses import DEFAULT_COMPARISON, get_hypothesis
+
+    changes = {}
+    if tuple(chosen.hypotheses) != tuple(DEFAULT_COMPARISON):
+        changes["hypotheses"] = tuple(h for h in chosen.hypotheses if not get_hypothesis(h).expensive)
+    if "seed" in target.options:
+        changes["seed"] = target.options["seed"]
+    return replace(calibration, **changes)
 
 
 def _calibrate_into(table, calibration, folder: Path, name: str) -> dict:

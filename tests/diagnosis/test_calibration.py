@@ -83,6 +83,7 @@ def _sampled_and_unsampled(n_null, n_decay, seed):
     return calibrate(gapped_table(), sampled=False, **kw), calibrate(gapped_table(), sampled=True, **kw)
 
 
+@pytest.mark.filterwarnings("ignore::ttvkit.inference.ConvergenceWarning")  # short chains: only the best draw counts
 def test_verdicts_with_and_without_sampling_agree():
     # The same simulated tables (same seed) judged from least squares (--no-sample) and from
     # emcee chains (the default) must get the same verdicts: the sampler keeps its best draw when it
@@ -94,6 +95,7 @@ def test_verdicts_with_and_without_sampling_agree():
 
 
 @pytest.mark.slow
+@pytest.mark.filterwarnings("ignore::ttvkit.inference.ConvergenceWarning")
 def test_verdicts_with_and_without_sampling_agree_full():
     # 30 null tables and 30 with a decay at 3 sigma of its detectability, where the verdict is
     # closest to its thresholds (issue 15: the --no-sample and sampled runs give the same verdicts)

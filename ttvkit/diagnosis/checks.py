@@ -277,14 +277,43 @@ def light_time_checks(fit, system, term=None) -> list[Check]:
         c = light_time_companion(system, amp, period, e)
     except MissingValueError as exc:
         return [_untested("radial-velocity visibility", exc)]
-    outcome = "untested" if c.would_have_been_seen is None else ("fail" if c.would_have_been_seen else "pass")
-    return [
-        Check("minimum companion mass", c.minimum_mass.to_value(u.Mjup), None, "Mjup", "note",
-              f"m sin i ≥ {c.minimum_mass:.3g} (mass function {c.mass_function:.3g})", False),
-        Check("radial-velocity visibility", c.rv_semi_amplitude.to_value(u.m / u.s),
-              None if c.rv_limit is None else 3 * c.rv_limit.to_value(u.m / u.s), "m/s", outcome,
-              f"the companion would make K = {c.rv_semi_amplitude:.3g}; {c.reason}"),
-    ]
+    mass = Check("minimum companion mass", c.minimum_mass.to_value(u.Mjup), None, "Mjup", "note",
+                 f"m sin i ≥ {c.minimum_mass:.3g} (mass function {c.mass_function:.3g})", False)
+    threshold = None if c.rv_limit is None else 3 * c.rv_limit.to_value(u.m / u.s)
+    text = f"the companion would make K = {c.rv_semi_amplitude:.3g}; {c.reason}"
+    if c.would_have_been_seen is None:
+        return [mass, Check("radial-velocity visibility", c.rv_semi_amplitude.to_value(u.m / u.s), threshold,
+                            "m/s", "untested", text)]
+    # Graded: the fit's posterior (amplitude, period, e) and the RV limits' uncertainties drawn
+    # together; p = P(the RVs would not have shown the companion); an impossible-type check
+    margins = _light_time_rv_margins(fit, system)
+    p_hidden = probability_below(margins, 1.0, log=True)
+    sigma = tension_sigma(p_hidden)
+    outcome = "fail" if sigma >= FAIL_SIGMA else "pass"
+    return [mass, Check("radial-velocity visibility", c.rv_semi_amplitude.to_value(u.m / u.s), threshold, "m/s",
+                        outcome, f"{text}; over the posterior P(the RVs would not have shown it) = {p_hidden:.2g}"
+                        f"{f' ({sigma:.1f}σ)' if outcome == 'fail' else ''}", tension=sigma, probability=p_hidden)]
+
+
+def _light_time_rv_margins(fit, system) -> np.ndarray:
+    """Per posterior draw: how far the companion's RV signal is over what the RVs would have shown
+    (> 1: seen), the larger of the RV change over 3× the scatter and an acceleration excess over 3σ."""
+    from ttvkit.physics.companions import projected_orbit_size
+
+    amp = np.abs(posterior_draws(fit, "light_time_amplitude")) * u.s   # a Gaussian approximation can cross 0
+    period = (posterior_draws(fit, "companion_period") * u.day).to(u.yr)
+    e = np.clip(posterior_draws(fit, "eccentricity"), 0.0, 0.999)
+    k = (2 * np.pi * projected_orbit_size(amp) / (period * np.sqrt(1 - e ** 2))).to(u.m / u.s)
+    accel = (2 * np.pi * k / period).to(u.m / u.s / u.day)
+    margins = np.empty(k.size)
+    for i, drawn in enumerate(_systems(system, k.size)):
+        rv = drawn.radial_velocity
+        _, change, threshold = rv_visibility(k[i], period[i], rv)
+        margins[i] = float((change / threshold).decompose())
+        if rv.acceleration is not None and rv.acceleration_uncertainty is not None:
+            excess = float(((accel[i] - abs(rv.acceleration)) / rv.acceleration_uncertainty).decompose())
+            margins[i] = max(margins[i], excess / 3.0)
+    return margins
 
 
 def resonance_checks(fit, system, term=None) -> list[Check]:

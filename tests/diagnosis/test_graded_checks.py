@@ -102,3 +102,34 @@ def test_light_time_rv_check_is_graded_over_the_posterior():
     # far above the RVs' reach the same posterior fails (the 80-s case is in test_diagnose.py)
     tight = {c.name: c for c in checks_for(result, sun_and_jupiter(2.0, rv_baseline_yr=baseline_yr, rv_rms=rms / 5))}
     assert tight["radial-velocity visibility"].outcome == "fail"
+
+
+def test_perturber_hill_check_is_graded_against_the_lognormal_answer():
+    # Gladman (1993): two circular orbits are Hill stable when a2 - a1 > 2 sqrt(3) R_H, with
+    # R_H = ((m1 + m2) / 3 M*)^(1/3) (a1 + a2) / 2, so the margin scales as (m1 + m2)^(-1/3).
+    # Posterior draws of m1 + m2 lognormal (sigma_ln = 0.3) about the total that puts the orbits at
+    # 1.05x the critical separation give ln(margin) ~ N(ln 1.05, 0.1^2): P(stable) =
+    # Phi(ln 1.05 / 0.1) = 0.687 (scipy's normal CDF).  400 draws: standard error 0.023; allow 3x.
+    import sys
+    from pathlib import Path
+
+    from scipy.stats import norm
+
+    from ttvkit.diagnosis.checks import perturber_checks
+
+    sys.path.insert(0, str(Path(__file__).parent.parent))
+    from systems import sun_and_jupiter
+
+    system = sun_and_jupiter(2.0)
+    a1 = system.semi_major_axis
+    p2 = 4.0 * u.day
+    a2 = a1 * 2.0 ** (2 / 3)
+    total = 3 * u.Msun * ((a2 - a1) / (1.05 * 2 * np.sqrt(3) * (a1 + a2) / 2)) ** 3
+    draws_total = total * np.exp(np.random.default_rng(7).normal(0.0, 0.3, 400))
+    masses = (draws_total - 1 * u.Mjup).to(u.Mjup)
+    assert masses.min() > 0
+    best = (total - 1 * u.Mjup).to(u.Mjup)
+    checks = {c.name: c for c in perturber_checks(best, p2, system, "test", draws=(masses, np.full(400, 4.0) * u.day))}
+    hill = checks["Hill stability"]
+    expected = norm.cdf(np.log(1.05) / 0.1)
+    assert hill.outcome == "pass" and abs(hill.probability - expected) < 3 * 0.023, (hill.probability, expected)

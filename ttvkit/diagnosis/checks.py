@@ -322,7 +322,14 @@ def resonance_checks(fit, system, term=None) -> list[Check]:
         return [Check("perturber mass", None, None, "", "untested", "no star mass: the perturber mass is unknown")]
     mass = fit.estimate("perturber_mass").value * u.Mjup
     note = f"{mass.to(u.Mearth):.3g} for zero free eccentricity (Lithwick et al. 2012)"
-    return perturber_checks(mass, fit.estimate("perturber_period").value * u.day, system, note)
+    return perturber_checks(mass, fit.estimate("perturber_period").value * u.day, system, note,
+                            draws=_perturber_draws(fit, u.Mjup))
+
+
+def _perturber_draws(fit, mass_unit) -> tuple:
+    """Posterior draws of the perturber's mass and period, for the graded checks."""
+    return (np.abs(posterior_draws(fit, "perturber_mass")) * mass_unit,
+            np.abs(posterior_draws(fit, "perturber_period")) * u.day)
 
 
 def nbody_perturber_checks(fit, system, term=None) -> list[Check]:
@@ -330,11 +337,17 @@ def nbody_perturber_checks(fit, system, term=None) -> list[Check]:
     mass = fit.estimate("perturber_mass").value * u.Mearth
     e = fit.estimate("perturber_eccentricity").value
     return perturber_checks(mass, fit.estimate("perturber_period").value * u.day, system,
-                            f"{mass:.3g} from the N-body fit (e′ = {e:.2f})", eccentricity=e)
+                            f"{mass:.3g} from the N-body fit (e′ = {e:.2f})", eccentricity=e,
+                            draws=_perturber_draws(fit, u.Mearth))
 
 
-def perturber_checks(mass, p_pert, system, note: str, eccentricity: float = 0.0) -> list[Check]:
-    """Hill stability (Gladman 1993) and RV visibility of a perturbing planet of ``mass`` at ``p_pert``."""
+def perturber_checks(mass, p_pert, system, note: str, eccentricity: float = 0.0, draws=None) -> list[Check]:
+    """Hill stability (Gladman 1993) and RV visibility of a perturbing planet of ``mass`` at ``p_pert``.
+
+    With ``draws`` (posterior draws of the mass and the period, Quantities) both are graded: each
+    draw is taken with a draw of the system's uncertain values, and the check fails only when the
+    probability that the orbit is stable (that the RVs would have missed the planet) is below 3σ.
+    """
     out = [Check("perturber mass", mass.to_value(u.Mjup), None, "Mjup", "note", note, False)]
     try:
         star = system.star.need("mass", "Hill stability")
@@ -342,19 +355,34 @@ def perturber_checks(mass, p_pert, system, note: str, eccentricity: float = 0.0)
         a1 = system.semi_major_axis
         a2 = a1 * float((p_pert / system.orbit.period).decompose()) ** (2 / 3)
         stable = hill_stable(star, planet, a1, mass, a2)
+        graded = _graded_perturber(draws, system, eccentricity) if draws is not None else None
         caveat = " (a circular-orbit criterion)" if eccentricity > 0.05 else ""
-        out.append(Check("Hill stability", float(abs(a2 - a1).to_value(u.AU)), None, "AU",
-                         "pass" if stable else "fail",
-                         f"orbits {a1:.3g} and {a2:.3g} are {'' if stable else 'not '}Hill stable "
-                         f"(Gladman 1993){caveat}"))
+        text = (f"orbits {a1:.3g} and {a2:.3g} are {'' if stable else 'not '}Hill stable "
+                f"(Gladman 1993){caveat}")
+        if graded is None:
+            out.append(Check("Hill stability", float(abs(a2 - a1).to_value(u.AU)), None, "AU",
+                             "pass" if stable else "fail", text))
+        else:
+            p_stable, sigma = graded["stable"]
+            out.append(Check("Hill stability", float(abs(a2 - a1).to_value(u.AU)), None, "AU",
+                             "fail" if sigma >= FAIL_SIGMA else "pass",
+                             f"{text} at the best fit; over the posterior P(stable) = {p_stable:.2g}",
+                             tension=sigma, probability=p_stable))
         k = radial_velocity_semi_amplitude(mass, star, p_pert, eccentricity)
         rv = system.radial_velocity
         seen, change, threshold = rv_visibility(k, p_pert, rv)
         if seen is not None:
+            text = (f"the perturber would make K = {k:.3g}, an RV change of {change:.3g} over the "
+                    f"{rv.baseline.to(u.yr):.3g} RV baseline, against 3× the RV scatter {threshold:.3g}")
+            if graded is None or graded["hidden"] is None:
+                outcome, extra = ("fail" if seen else "pass"), {}
+            else:
+                p_hidden, sigma = graded["hidden"]
+                outcome = "fail" if sigma >= FAIL_SIGMA else "pass"
+                text += f"; over the posterior P(the RVs would not have shown it) = {p_hidden:.2g}"
+                extra = {"tension": sigma, "probability": p_hidden}
             out.append(Check("radial-velocity visibility", k.to_value(u.m / u.s), threshold.to_value(u.m / u.s),
-                             "m/s", "fail" if seen else "pass",
-                             f"the perturber would make K = {k:.3g}, an RV change of {change:.3g} over the "
-                             f"{rv.baseline.to(u.yr):.3g} RV baseline, against 3× the RV scatter {threshold:.3g}"))
+                             "m/s", outcome, text, **extra))
         inc = system.orbit.inclination
         if inc is not None and system.star.radius is not None:
             b = float((a2 * np.cos(inc) / system.star.radius).decompose())
@@ -363,6 +391,28 @@ def perturber_checks(mass, p_pert, system, note: str, eccentricity: float = 0.0)
                              f"{'transit; look for its transits' if abs(b) < 1 else 'not transit'}", False))
     except MissingValueError as exc:
         out.append(_untested("Hill stability", exc))
+    return out
+
+
+def _graded_perturber(draws, system, eccentricity: float) -> dict:
+    """P(Hill stable) and P(hidden from the RVs) over posterior draws of (mass, period) and the system's."""
+    from ttvkit.physics.companions import mutual_hill_separation
+
+    masses, periods = draws
+    n = masses.size
+    hill, rv_margin = np.empty(n), np.empty(n)
+    for i, drawn in enumerate(_systems(system, n)):
+        star, planet, a1 = drawn.star.mass, drawn.companion.mass, drawn.semi_major_axis
+        a2 = a1 * float((periods[i] / drawn.orbit.period).decompose()) ** (2 / 3)
+        hill[i] = mutual_hill_separation(star, planet, a1, masses[i], a2) / (2 * np.sqrt(3))
+        k = radial_velocity_semi_amplitude(masses[i], star, periods[i], eccentricity)
+        _, change, threshold = rv_visibility(k, periods[i], drawn.radial_velocity)
+        rv_margin[i] = np.nan if change is None else float((change / threshold).decompose())
+    p_stable = 1.0 - probability_below(hill, 1.0, log=True)
+    out = {"stable": (p_stable, tension_sigma(p_stable)), "hidden": None}
+    if np.isfinite(rv_margin).any():
+        p_hidden = probability_below(rv_margin, 1.0, log=True)
+        out["hidden"] = (p_hidden, tension_sigma(p_hidden))
     return out
 
 

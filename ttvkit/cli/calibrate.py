@@ -37,7 +37,8 @@ def add_commands(sub) -> None:
     p.add_argument("--amplitudes", default="1,2,3,5,8",
                    help="injected amplitudes in σ of their detectability (default 1,2,3,5,8)")
     p.add_argument("--inject", default="orbital-decay",
-                   help="injected hypotheses, comma-separated (orbital-decay, sinusoidal-modulation)")
+                   help="injected hypotheses, comma-separated (orbital-decay, sinusoidal-modulation, "
+                        "near-resonant-perturber, apsidal-precession)")
     p.add_argument("--error-scale", type=float, default=1.0,
                    help="true scatter / stated errors (1.5: errors understated 1.5x)")
     p.add_argument("--jitter", action="store_true", help="fit an extra white timing noise in every comparison")

@@ -60,10 +60,13 @@ class CalibrationOptions:
     amplitudes : tuple of float
         Injected amplitudes in units of the detectability σ (:func:`detectability`).
     inject : tuple of str
-        Hypotheses injected at each amplitude: ``orbital-decay`` (dP/dE) and
-        ``sinusoidal-modulation`` (semi-amplitude, at half the baseline).
+        Hypotheses injected at each amplitude: ``orbital-decay`` (dP/dE),
+        ``sinusoidal-modulation``, ``near-resonant-perturber`` (outer, j = 2)
+        and ``apsidal-precession`` (each a semi-amplitude of the O−C, turning
+        once in half the baseline).
     hypotheses : tuple of str
-        Fitted to every simulated table (the constant period is always added).
+        Fitted to every simulated table (the constant period and the injected
+        hypotheses are always added).
     error_scale : float
         True scatter ÷ stated uncertainty (1.5: errors understated by 1.5×).
     likelihood : Likelihood or None
@@ -170,7 +173,23 @@ def _modulation_theta(data, base, amplitude):
     return np.array([base[0], base[1], amplitude, 0.0, _modulation_period(data)])
 
 
-_INJECTORS = {"orbital-decay": _decay_theta, "sinusoidal-modulation": _modulation_theta}
+def _resonance_theta(data, base, amplitude):
+    """A near-resonant perturber (outer, j = 2: the hypothesis's default) whose TTV turns with the
+    injected modulation's period S: 1/S = |2/P′ − 1/P| (Lithwick, Xie & Wu 2012), so P′ = 2/(1/P + 1/S)."""
+    s = _modulation_period(data)
+    return np.array([base[0], base[1], amplitude, 0.0, 2.0 / (1.0 / base[1] + 1.0 / s)])
+
+
+def _precession_theta(data, base, amplitude):
+    """Apsidal precession turning once per S: the transits' O−C is −e cos(ω0 + E dω/dE) P/π (Giménez &
+    Bastero 1995, first order), a sinusoid of semi-amplitude e P/π; ω0 = π/2 makes it a sine like the
+    detectability's column."""
+    s = _modulation_period(data)
+    return np.array([base[0], base[1], 0.0, amplitude * np.pi / base[1], 2 * np.pi * base[1] / s])
+
+
+_INJECTORS = {"orbital-decay": _decay_theta, "sinusoidal-modulation": _modulation_theta,
+              "near-resonant-perturber": _resonance_theta, "apsidal-precession": _precession_theta}
 
 
 def _trial(job):
@@ -235,7 +254,9 @@ def calibrate(table, options: CalibrationOptions | None = None, *, executor=None
 
     options = replace(options or CalibrationOptions(), **changes)
     data = table if isinstance(table, TimingData) else TimingData.from_table(table)
-    hypotheses = tuple(dict.fromkeys(get_hypothesis(h).name for h in ("constant-period",) + tuple(options.hypotheses)))
+    # every injected hypothesis is also fitted: a signal no fitted hypothesis describes is never "recovered"
+    hypotheses = tuple(dict.fromkeys(get_hypothesis(h).name for h in ("constant-period",) + tuple(options.hypotheses)
+                                     + tuple(options.inject)))
     base = compare(data, ["constant-period"], progress=False)["constant-period"].model_theta()
     rng = np.random.default_rng(options.seed)
     units = {name: detectability(data, name) for name in options.inject}
@@ -280,7 +301,8 @@ def _summarise(results, labels, hypotheses, options, units) -> Calibration:
     for name in options.inject:
         rows = []
         for amp in options.amplitudes:
-            hits = [v.get(name) in NEEDED for (v, _), lab in zip(results, labels) if lab == (name, amp)]
+            hits = [v.get(get_hypothesis(name).name) in NEEDED
+                    for (v, _), lab in zip(results, labels) if lab == (name, amp)]
             rows.append((float(amp), float(np.mean(hits)) if hits else float("nan")))
         recovery[name], thresholds[name] = rows, _thresholds(rows)
     covered = [c for (_, c) in results if c is not None]

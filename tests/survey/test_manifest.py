@@ -137,13 +137,13 @@ def test_calibration_per_target_equals_a_single_target_calibration(inputs, tmp_p
     # alone with the target's hypotheses (same options and seed: the same simulated tables), and a
     # survey finished without that calibration (none, or other settings) runs its targets again.  Small counts keep the test fast; the
     # rates themselves are checked in tests/diagnosis (injection-recovery against known truth).
+    from dataclasses import replace
+
     from survey.invented import TEST_HYPOTHESES
 
     from ttvkit.diagnosis import DiagnosisOptions
     from ttvkit.diagnosis.calibration import CalibrationOptions, calibrate
     from ttvkit.survey.task import read_target
-
-    from dataclasses import replace
 
     targets = read_manifest(inputs)[:1]
     options = DiagnosisOptions(sampled=False, hypotheses=TEST_HYPOTHESES, now=2461000.5, progress=False)

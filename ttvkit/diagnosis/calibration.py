@@ -299,10 +299,10 @@ def _summarise(results, labels, hypotheses, options, units) -> Calibration:
             null_verdicts[h][v[h]] = null_verdicts[h].get(v[h], 0) + 1
     recovery, thresholds = {}, {}
     for name in options.inject:
+        fitted = get_hypothesis(name).name      # e.g. the resonance's fitted name carries its j
         rows = []
         for amp in options.amplitudes:
-            hits = [v.get(get_hypothesis(name).name) in NEEDED
-                    for (v, _), lab in zip(results, labels) if lab == (name, amp)]
+            hits = [v.get(fitted) in NEEDED for (v, _), lab in zip(results, labels) if lab == (name, amp)]
             rows.append((float(amp), float(np.mean(hits)) if hits else float("nan")))
         recovery[name], thresholds[name] = rows, _thresholds(rows)
     covered = [c for (_, c) in results if c is not None]

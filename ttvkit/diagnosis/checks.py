@@ -58,6 +58,8 @@ from ttvkit.physics import activity_budgets
 from ttvkit.physics.companions import (
     hill_stable,
     light_time_companion,
+    mutual_hill_separation,
+    projected_orbit_size,
     romer_acceleration,
     romer_decay_rate,
     rv_visibility,
@@ -298,8 +300,6 @@ def light_time_checks(fit, system, term=None) -> list[Check]:
 def _light_time_rv_margins(fit, system) -> np.ndarray:
     """Per posterior draw: how far the companion's RV signal is over what the RVs would have shown
     (> 1: seen), the larger of the RV change over 3× the scatter and an acceleration excess over 3σ."""
-    from ttvkit.physics.companions import projected_orbit_size
-
     amp = np.abs(posterior_draws(fit, "light_time_amplitude")) * u.s   # a Gaussian approximation can cross 0
     period = (posterior_draws(fit, "companion_period") * u.day).to(u.yr)
     e = np.clip(posterior_draws(fit, "eccentricity"), 0.0, 0.999)
@@ -308,8 +308,7 @@ def _light_time_rv_margins(fit, system) -> np.ndarray:
     margins = np.empty(k.size)
     for i, drawn in enumerate(_systems(system, k.size)):
         rv = drawn.radial_velocity
-        _, change, threshold = rv_visibility(k[i], period[i], rv)
-        margins[i] = float((change / threshold).decompose())
+        margins[i] = _rv_margin(k[i], period[i], rv)
         if rv.acceleration is not None and rv.acceleration_uncertainty is not None:
             excess = float(((accel[i] - abs(rv.acceleration)) / rv.acceleration_uncertainty).decompose())
             margins[i] = max(margins[i], excess / 3.0)
@@ -396,8 +395,6 @@ def perturber_checks(mass, p_pert, system, note: str, eccentricity: float = 0.0,
 
 def _graded_perturber(draws, system, eccentricity: float) -> dict:
     """P(Hill stable) and P(hidden from the RVs) over posterior draws of (mass, period) and the system's."""
-    from ttvkit.physics.companions import mutual_hill_separation
-
     masses, periods = draws
     n = masses.size
     hill, rv_margin = np.empty(n), np.empty(n)
@@ -406,14 +403,19 @@ def _graded_perturber(draws, system, eccentricity: float) -> dict:
         a2 = a1 * float((periods[i] / drawn.orbit.period).decompose()) ** (2 / 3)
         hill[i] = mutual_hill_separation(star, planet, a1, masses[i], a2) / (2 * np.sqrt(3))
         k = radial_velocity_semi_amplitude(masses[i], star, periods[i], eccentricity)
-        _, change, threshold = rv_visibility(k, periods[i], drawn.radial_velocity)
-        rv_margin[i] = np.nan if change is None else float((change / threshold).decompose())
+        rv_margin[i] = _rv_margin(k, periods[i], drawn.radial_velocity)
     p_stable = 1.0 - probability_below(hill, 1.0, log=True)
     out = {"stable": (p_stable, tension_sigma(p_stable)), "hidden": None}
     if np.isfinite(rv_margin).any():
         p_hidden = probability_below(rv_margin, 1.0, log=True)
         out["hidden"] = (p_hidden, tension_sigma(p_hidden))
     return out
+
+
+def _rv_margin(semi_amplitude, period, limits) -> float:
+    """The RV change over the baseline in units of what the RVs would show (> 1: seen; NaN: no limits)."""
+    _, change, threshold = rv_visibility(semi_amplitude, period, limits)
+    return np.nan if change is None else float((change / threshold).decompose())
 
 
 #: The checks of each Term class; a Term with no entry (a constant period) has none.

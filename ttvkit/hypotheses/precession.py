@@ -62,9 +62,9 @@ class ApsidalPrecession(Term):
         low_rate, high_rate = self._rate_range(data)
         peaks = candidate_periods(data, residuals, count=6, shortest=2 * np.pi / high_rate * data.period)
         turns = [2 * np.pi / (periods * n_epochs) for periods in (0.5, 1.0, 2.0, 4.0)]
+        amp = data.period / np.pi
+        x = data.epoch + data.phase
         for rate in turns + [float(np.clip(2 * np.pi * data.period / p, low_rate, high_rate)) for p in peaks]:
-            amp = data.period / np.pi
-            x = data.epoch + data.phase
             design = np.column_stack([np.ones_like(x), x, sign * amp * np.cos(rate * data.epoch),
                                       -sign * amp * np.sin(rate * data.epoch)])
             coef = weighted_lstsq(design, data.time, data.sigma)

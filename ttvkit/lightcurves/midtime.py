@@ -233,6 +233,9 @@ class WindowModel:
         changes between calls (shape fits change ``params``).
     """
 
+    #: White noise: the normal equations are products with fixed matrices (GPWindowModel: False)
+    _white = True
+
     def __init__(self, time, flux, flux_err, shape: TransitShape, baseline_order: int = 1, tabulated: bool = True):
         import batman
 
@@ -249,9 +252,8 @@ class WindowModel:
                                                                 **_supersampling(shape))
         x = self.relative / max(float(self.time.max() - self.time.min()), 1e-9)
         self.basis = x[:, None] ** np.arange(baseline_order + 1)     # columns 1, x, x², ...
-        self.flux_w = self.flux * self.weight
-        self.design_t = (self.basis * self.weight[:, None]).T     # [k, n]: weighted basis, rows
-        self.yy = float(self.flux_w @ self.flux_w)
+        flux_w = self.flux * self.weight
+        self.yy = float(flux_w @ flux_w)
         self.evaluations = 0
         self._last = None
         # White noise: AᵀK⁻¹A = Σ m² w² bᵢbⱼ and AᵀK⁻¹y = Σ m w² f bᵢ are two products with fixed
@@ -260,7 +262,6 @@ class WindowModel:
         k = self.basis.shape[1]
         self._pairs = ((w2[:, None] * self.basis)[:, :, None] * self.basis[:, None, :]).reshape(-1, k * k)
         self._cross = (w2 * self.flux)[:, None] * self.basis
-        self._white = True      # GPWindowModel: False (its normal equations go through the GP)
 
     def light_curve(self, t0: float) -> np.ndarray:
         """The transit model (no baseline) for mid-time ``t0`` (BJD_TDB); the last one is kept."""
@@ -288,15 +289,12 @@ class WindowModel:
 
     def _normal(self, m: np.ndarray):
         """Normal equations AᵀK⁻¹A, AᵀK⁻¹y of the baseline for the transit model ``m``."""
-        a = m * self.design_t
-        return a @ a.T, a @ self.flux_w
+        k = self._cross.shape[1]
+        return ((m * m) @ self._pairs).reshape(k, k), m @ self._cross
 
     def _solve(self, m: np.ndarray) -> np.ndarray:
         """Baseline coefficients for the transit model ``m``."""
-        if self._white:
-            normal, rhs = ((m * m) @ self._pairs).reshape(len(self._cross[0]), -1), m @ self._cross
-        else:
-            normal, rhs = self._normal(m)
+        normal, rhs = self._normal(m)
         if normal.shape == (2, 2):  # the usual linear baseline: Cramer's rule, no LAPACK call
             det = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
             return np.array([normal[1, 1] * rhs[0] - normal[0, 1] * rhs[1],
@@ -315,21 +313,12 @@ class WindowModel:
 
     def chi2(self, t0: float) -> float:
         """Profile χ² = yᵀK⁻¹y − (AᵀK⁻¹y)ᵀ(AᵀK⁻¹A)⁻¹(AᵀK⁻¹y): the baseline solved by least squares."""
-        if self._white:
-            m = self.light_curve(t0)
-            normal, rhs = ((m * m) @ self._pairs).tolist(), (m @ self._cross).tolist()
-            if len(rhs) == 2:     # the usual linear baseline, in Python floats: the refinement's hot path
-                a, b, _, d = normal
-                return self.yy - (d * rhs[0] ** 2 - 2 * b * rhs[0] * rhs[1] + a * rhs[1] ** 2) / (a * d - b * b)
-            return self.yy - float(_quadratic_forms(np.array([normal]), np.array([rhs]))[0])
         normal, rhs = self._normal(self.light_curve(t0))
-        if normal.shape == (2, 2):  # the quadratic form in closed form: this is the hot path
-            det = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
-            explained = (normal[1, 1] * rhs[0] ** 2 - 2 * normal[0, 1] * rhs[0] * rhs[1]
-                         + normal[0, 0] * rhs[1] ** 2) / det
-        else:
-            explained = rhs @ np.linalg.solve(normal, rhs)
-        return self.yy - float(explained)
+        if rhs.size == 2:     # the usual linear baseline, in Python floats: the refinement's hot path
+            (a, b), (_, d) = normal.tolist()
+            r0, r1 = rhs.tolist()
+            return self.yy - (d * r0 ** 2 - 2 * b * r0 * r1 + a * r1 ** 2) / (a * d - b * b)
+        return self.yy - float(_quadratic_forms(normal.reshape(1, -1), rhs.reshape(1, -1))[0])
 
     def profile_chi2(self, t0: float) -> tuple[float, np.ndarray]:
         """White-noise χ² with the baseline solved by weighted linear least squares; and the model."""

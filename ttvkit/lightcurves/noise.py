@@ -137,6 +137,8 @@ class GPWindowModel(WindowModel):
     ``flux_err`` are the given errors; the white term is ``red.white_scale`` times them.
     """
 
+    _white = False      # the normal equations go through the GP: no batched white-noise shortcut
+
     def __init__(self, time, flux, flux_err, shape, baseline_order: int, red: RedNoise, tabulated: bool = True):
         err = np.asarray(flux_err, float) * red.white_scale
         super().__init__(time, flux, err, shape, baseline_order, tabulated)
@@ -144,7 +146,6 @@ class GPWindowModel(WindowModel):
         self.gp.compute(self.time - self.centre, diag=err ** 2, quiet=True)
         self.kinv_y = self.gp.apply_inverse(self.flux)
         self.yy = float(self.flux @ self.kinv_y)
-        self._white = False
 
     def metric(self, x: np.ndarray) -> np.ndarray:
         """K⁻¹ x (celerite2's O(N) solve)."""

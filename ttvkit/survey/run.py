@@ -138,13 +138,14 @@ def _prepare(out: Path, targets) -> Path:
 def _finished(where: dict, targets, calibration=None) -> set:
     """Targets whose row says done and whose report folder (and the calibration asked, if any) is in place."""
     done = set()
+    asked = calibration_key(calibration) if calibration is not None else None
     for t in targets:
         row = where["rows"] / f"{t.name}.json"
         if row.is_file() and (where["targets"] / t.name / "report.html").is_file():
             try:
                 content = json.loads(row.read_text(encoding="utf-8"))
                 if content["status"] == "done" and (
-                        calibration is None or (content.get("calibration_asked") == calibration_key(calibration)
+                        asked is None or (content.get("calibration_asked") == asked
                                                 and (where["calibration"] / f"{t.name}.json").is_file())):
                     done.add(t.name)
             except (ValueError, KeyError):

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from scipy.stats import norm
-
 from simulate import PERIOD, T_REF
+
 from ttvkit import TimingTable
 from ttvkit.inference.excess_noise import MIN_ROWS_PER_SOURCE, decide_excess_noise, jitter_likelihood
 from ttvkit.inference.fitting import fit

@@ -111,9 +111,14 @@ def test_short_chain_warns_or_raises():
     table = simulate("sinusoidal-modulation", CASES["sinusoidal-modulation"][0], np.random.default_rng(2))
     best = fit(table, "sinusoidal-modulation")
     with pytest.warns(ConvergenceWarning, match="autocorrelation"):
-        sample(best, n_steps=150, progress=False)
+        sample(best, n_steps=150, progress=False, max_steps=None)
     with pytest.raises(ConvergenceError):
-        sample(best, n_steps=150, progress=False, require_convergence=True)
+        sample(best, n_steps=150, progress=False, require_convergence=True, max_steps=None)
+    # by default a short first run is extended until it is 50 autocorrelation times long
+    # (emcee's documentation: "N > 50 tau")
+    extended = sample(best, n_steps=150, progress=False, require_convergence=True)
+    tau = max(extended.sampling["autocorrelation_time"])
+    assert extended.sampling["converged"] and extended.sampling["n_steps"] >= 50 * tau > 150
 
 
 def test_student_t_resists_outliers():

@@ -6,8 +6,45 @@ import argparse
 
 from ttvkit.errors import InputError
 
-__all__ = ["add_target_options", "add_table_options", "parse_target", "parse_observer", "parse_columns",
+__all__ = ["add_sampler_options", "check_sampler_options", "add_workers_option", "hypothesis_pool",
+           "add_target_options", "add_table_options", "parse_target", "parse_observer", "parse_columns",
            "parse_quantity", "read_table_from_args", "read_edited_table", "table_edits", "require_rows"]
+
+
+def add_sampler_options(p: argparse.ArgumentParser) -> None:
+    """``--steps`` and ``--max-steps``: the first run of the sampler and the cap of its extension."""
+    p.add_argument("--steps", type=int, default=500,
+                   help="first run of the sampler, steps per walker (default 500); a chain shorter than 50 "
+                        "autocorrelation times is then extended until it is long enough or --max-steps")
+    p.add_argument("--max-steps", type=int, default=20000,
+                   help="cap on a chain's length, steps per walker (default 20000); a chain stopped by the "
+                        "cap is reported as unconverged")
+
+
+def check_sampler_options(args) -> None:
+    """Refuse a sampler run too short to estimate its autocorrelation time."""
+    if args.steps < 100:
+        raise InputError(f"--steps {args.steps}: the sampler needs at least 100 steps per walker")
+    if args.max_steps < args.steps:
+        raise InputError(f"--max-steps {args.max_steps} is below --steps {args.steps}")
+
+
+def add_workers_option(p: argparse.ArgumentParser) -> None:
+    """``--workers``: processes that fit and sample the hypotheses at once."""
+    p.add_argument("--workers", type=int, default=None,
+                   help="processes that fit and sample the hypotheses at once (default: one per core, up "
+                        "to 4, when sampling; 1 otherwise)")
+
+
+def hypothesis_pool(args, sampled: bool):
+    """The process pool of ``--workers`` for the hypotheses, or None to fit them in this process."""
+    from ttvkit.inference.fitting import local_pool
+
+    if args.workers is not None and args.workers < 1:
+        raise InputError(f"--workers {args.workers}: need at least 1")
+    if args.workers is None and not sampled:  # unsampled fits take seconds: not worth starting processes
+        return None
+    return local_pool(args.workers)
 
 
 def add_target_options(p: argparse.ArgumentParser) -> None:

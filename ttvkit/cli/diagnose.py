@@ -23,7 +23,7 @@ table, from --ra/--dec, or from the system file's [star] ra and dec.
 
 def add_commands(sub) -> None:
     """Register ``diagnose``."""
-    from ttvkit.cli.common import add_table_options
+    from ttvkit.cli.common import add_sampler_options, add_table_options
 
     p = sub.add_parser("diagnose", help="what drives the timing drift? fit, test against physics, report",
                        description="Fit every timing hypothesis, test each against the physics of the "
@@ -39,7 +39,7 @@ def add_commands(sub) -> None:
     p.add_argument("--shape", metavar="SHAPE.toml",
                    help="transit shape for --light-curves (default: fitted to the light curves)")
     p.add_argument("--no-sample", action="store_true", help="skip posterior sampling (faster)")
-    p.add_argument("--steps", type=int, default=3000, help="sampler steps per walker (default 3000)")
+    add_sampler_options(p)
     p.add_argument("--seed", type=int, default=0, help="sampler seed (default 0)")
     p.add_argument("--years", type=float, default=10.0, help="forecast horizon in years (default 10)")
     p.add_argument("--precision", type=float, help="future timing precision in seconds "
@@ -67,7 +67,14 @@ def add_commands(sub) -> None:
 
 
 def _cmd_diagnose(args) -> int:
-    from ttvkit.cli.common import parse_target, read_table_from_args, require_rows, table_edits
+    from ttvkit.cli.common import (
+        check_sampler_options,
+        hypothesis_pool,
+        parse_target,
+        read_table_from_args,
+        require_rows,
+        table_edits,
+    )
     from ttvkit.diagnosis.diagnose import DiagnosisOptions
     from ttvkit.errors import InputError
     from ttvkit.inference.likelihood import Likelihood
@@ -86,8 +93,9 @@ def _cmd_diagnose(args) -> int:
         args.ra, args.dec = str(system.star.ra.to_value("deg")), str(system.star.dec.to_value("deg"))
     table = read_table_from_args(args)
     require_rows(table, 4, args.table)
-    if args.steps < 100 or args.perturber_steps < 100:
-        raise InputError("--steps and --perturber-steps must be at least 100")
+    check_sampler_options(args)
+    if args.perturber_steps < 100:
+        raise InputError("--perturber-steps must be at least 100")
     if args.light_curves:
         from ttvkit.lightcurves.measure import measure
         from ttvkit.lightcurves.midtime import shape_from_toml
@@ -108,16 +116,20 @@ def _cmd_diagnose(args) -> int:
         from ttvkit.cli.perturbers import map_options
 
         perturber_map, map_executor = map_options(args)
-    options = DiagnosisOptions(sampled=not args.no_sample, n_steps=args.steps, seed=args.seed,
-                               forecast_years=args.years, timing_precision_s=args.precision, likelihood=like,
+    options = DiagnosisOptions(sampled=not args.no_sample, n_steps=args.steps, max_steps=args.max_steps,
+                               seed=args.seed, forecast_years=args.years, timing_precision_s=args.precision,
+                               likelihood=like,
                                progress=not args.no_progress and not args.json, perturber_map=perturber_map,
                                fit_perturber=args.fit_perturber, perturber_steps=args.perturber_steps,
                                excess_noise=not args.no_excess_noise)
     edits = table_edits(args)
+    pool = hypothesis_pool(args, options.sampled)
     try:
         run = run_diagnosis(table, system, args.out, options, edits=edits, force=args.force,
-                            map_executor=map_executor, say=say)
+                            executor=pool, map_executor=map_executor, say=say)
     finally:
+        if pool is not None:
+            pool.shutdown()
         if map_executor is not None:
             map_executor.shutdown()
     diagnosis, paths = run.diagnosis, run.paths

@@ -35,11 +35,11 @@ a ΔBIC above 10 is very strong evidence (Kass & Raftery 1995).
 
 
 def _common(p):
-    from ttvkit.cli.common import add_table_options
+    from ttvkit.cli.common import add_sampler_options, add_table_options
 
     p.add_argument("table", help="timing table (ECSV written by ttvkit, or CSV with --standard)")
     p.add_argument("--sample", action="store_true", help="sample the posterior with emcee")
-    p.add_argument("--steps", type=int, default=3000, help="sampler steps per walker (default 3000)")
+    add_sampler_options(p)
     p.add_argument("--seed", type=int, default=0, help="random seed of the sampler (default 0)")
     p.add_argument("--jitter", action="store_true", help="fit an extra white timing noise")
     p.add_argument("--no-excess-noise", action="store_true",
@@ -69,6 +69,9 @@ def add_commands(sub) -> None:
                                    "BIC.", epilog=_EPILOG_COMPARE,
                        formatter_class=argparse.RawDescriptionHelpFormatter)
     _common(p)
+    from ttvkit.cli.common import add_workers_option
+
+    add_workers_option(p)
     p.set_defaults(func=_cmd_compare)
 
 
@@ -80,14 +83,12 @@ def _likelihood(args):
 
 def _run(args, hypotheses):
     """The fit (or comparison) and what the output must say about the table: ``(result, extra)``."""
-    from ttvkit.cli.common import read_edited_table
-    from ttvkit.errors import InputError
+    from ttvkit.cli.common import check_sampler_options, read_edited_table
     from ttvkit.inference.excess_noise import decide_excess_noise
     from ttvkit.inference.fitting import compare, fit, sample
     from ttvkit.inference.leverage import find_leverage
 
-    if args.steps < 100:
-        raise InputError("--steps must be at least 100")
+    check_sampler_options(args)
     table, edits, notes = read_edited_table(args, minimum=4 if len(hypotheses) > 1 else 1)
     extra = {"table_edits": edits.to_dict(), "table_notes": notes, "table_warnings": table.intake_warnings}
     context = None
@@ -106,10 +107,18 @@ def _run(args, hypotheses):
         extra["leverage"] = find_leverage(result, table, context=context)
         if args.sample:
             result = sample(result, n_steps=args.steps, seed=args.seed, progress=not args.no_progress,
-                            require_convergence=args.require_convergence)
+                            require_convergence=args.require_convergence, max_steps=args.max_steps)
         return result, extra
-    return compare(table, hypotheses, like, context=context, sampled=args.sample, n_steps=args.steps,
-                   seed=args.seed, progress=not args.no_progress), extra
+    from ttvkit.cli.common import hypothesis_pool
+
+    pool = hypothesis_pool(args, args.sample)
+    try:
+        return compare(table, hypotheses, like, context=context, sampled=args.sample, n_steps=args.steps,
+                       seed=args.seed, progress=not args.no_progress, max_steps=args.max_steps,
+                       executor=pool), extra
+    finally:
+        if pool is not None:
+            pool.shutdown()
 
 
 def _say_extra(extra: dict) -> None:

@@ -37,7 +37,9 @@ def add_map_options(p: argparse.ArgumentParser) -> None:
                    help="the perturber's fixed eccentricity (default 0)")
     p.add_argument("--delta-chi2", type=float, default=9.0,
                    help="chi2 rise above the constant-period fit that bounds the allowed mass (default 9)")
-    p.add_argument("--workers", type=int, help="processes (default: all cores)")
+    p.add_argument("--workers", type=int,
+                   help="processes (default: all cores); in diagnose also the processes that fit and sample "
+                        "the hypotheses at once (default there: one per core, up to 4, when sampling)")
 
 
 def map_options(args):

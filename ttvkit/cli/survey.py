@@ -27,6 +27,8 @@ others are done).  The verdict is a plausibility screen, not a proof.
 
 def add_commands(sub) -> None:
     """Register ``survey``."""
+    from ttvkit.cli.common import add_sampler_options
+
     p = sub.add_parser("survey", help="diagnose many targets (dask; resumable) and summarise them",
                        description="Diagnose every target of a manifest or folder as one task on "
                                    "dask.distributed, each into its own report folder, and write one "
@@ -38,7 +40,7 @@ def add_commands(sub) -> None:
     p.add_argument("--scheduler", metavar="ADDRESS", help="use a running dask scheduler instead of a local cluster")
     p.add_argument("--redo", action="store_true", help="diagnose finished targets again")
     p.add_argument("--no-sample", action="store_true", help="skip posterior sampling (faster)")
-    p.add_argument("--steps", type=int, default=3000, help="sampler steps per walker (default 3000)")
+    add_sampler_options(p)
     p.add_argument("--seed", type=int, default=0, help="sampler seed (default 0)")
     p.add_argument("--years", type=float, default=10.0, help="forecast horizon in years (default 10)")
     p.add_argument("--now", type=float, metavar="BJD_TDB",
@@ -53,14 +55,15 @@ def add_commands(sub) -> None:
 
 
 def _cmd_survey(args) -> int:
+    from ttvkit.cli.common import check_sampler_options
     from ttvkit.diagnosis.diagnose import DiagnosisOptions
     from ttvkit.errors import InputError
     from ttvkit.inference.likelihood import Likelihood
     from ttvkit.survey import run_survey
 
-    if args.steps < 100:
-        raise InputError("--steps must be at least 100")
-    options = DiagnosisOptions(sampled=not args.no_sample, n_steps=args.steps, seed=args.seed,
+    check_sampler_options(args)
+    options = DiagnosisOptions(sampled=not args.no_sample, n_steps=args.steps, max_steps=args.max_steps,
+                               seed=args.seed,
                                forecast_years=args.years, now=args.now, progress=False,
                                likelihood=Likelihood("student-t") if args.robust else None)
     calibration = None

@@ -115,6 +115,7 @@ def _diagnose(table, suspicions, paths: dict, out: Path, summary: dict, say, *, 
     """As a person would after checking the flagged paper: re-read the suspect source and diagnose."""
     from ttvkit.diagnosis.diagnose import DiagnosisOptions
     from ttvkit.diagnosis.perturbers import PerturberMapOptions
+    from ttvkit.inference.fitting import local_pool
     from ttvkit.physics import System
     from ttvkit.pipeline import run_diagnosis
     from ttvkit.timing.edits import TableEdits
@@ -132,7 +133,12 @@ def _diagnose(table, suspicions, paths: dict, out: Path, summary: dict, say, *, 
             f"{DEMO_MAP_PERIODS} periods x {DEMO_MAP_PHASES} phases)")
     options = DiagnosisOptions(sampled=sampled, progress=progress, perturber_map=perturber_map,
                                fit_perturber=fit_perturber, perturber_steps=DEMO_PERTURBER_STEPS)
-    diagnosis = run_diagnosis(table, system, out, options, edits=edits, say=say).diagnosis
+    pool = local_pool() if sampled else None
+    try:
+        diagnosis = run_diagnosis(table, system, out, options, edits=edits, say=say, executor=pool).diagnosis
+    finally:
+        if pool is not None:
+            pool.shutdown()
     if diagnosis.perturbers is not None:
         best = diagnosis.perturbers.to_dict()["best_point"]
         say(f"demo: perturber map: {diagnosis.perturbers.n_points} N-body grid points; " + (

@@ -185,9 +185,10 @@ class DiagnosisOptions:
         Sample each posterior with emcee (bands, uncertainties); otherwise the
         Gaussian approximation at the optimum is used.
     n_steps, seed, progress
-        Sampler settings.
+        Sampler settings (``n_steps``: the first run, steps per walker).
     max_steps : int or None
-        Chains shorter than 50 autocorrelation times are extended up to this.
+        Chains shorter than 50 autocorrelation times are extended up to this
+        (:func:`ttvkit.inference.fitting.sample`).
     likelihood : Likelihood or None
         Gaussian by default.
     forecast_years : float
@@ -215,10 +216,10 @@ class DiagnosisOptions:
 
     hypotheses: tuple = DEFAULT_COMPARISON
     sampled: bool = True
-    n_steps: int = 3000
+    n_steps: int = 500
     seed: int = 0
     progress: bool = True
-    max_steps: int | None = 6000
+    max_steps: int | None = 20000
     likelihood: object = None
     forecast_years: float = 10.0
     timing_precision_s: float | None = None
@@ -236,7 +237,7 @@ class DiagnosisOptions:
 
     def describe(self) -> dict:
         """The settings recorded in diagnosis.json."""
-        return {"sampled": self.sampled, "n_steps": self.n_steps, "seed": self.seed,
+        return {"sampled": self.sampled, "n_steps": self.n_steps, "max_steps": self.max_steps, "seed": self.seed,
                 "forecast_years": self.forecast_years,
                 "likelihood": (self.likelihood.describe() if self.likelihood else "Gaussian"),
                 "fit_perturber": bool(self.fit_perturber), "perturber_steps": int(self.perturber_steps)}

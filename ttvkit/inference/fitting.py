@@ -30,7 +30,7 @@ from ttvkit.hypotheses import DEFAULT_COMPARISON, Hypothesis, TimingData, get_hy
 from ttvkit.inference.likelihood import Likelihood
 from ttvkit.inference.results import Comparison, FitResult
 
-__all__ = ["fit", "sample", "compare", "ConvergenceWarning"]
+__all__ = ["fit", "sample", "compare", "local_pool", "ConvergenceWarning"]
 
 
 class ConvergenceWarning(TtvkitWarning):
@@ -232,9 +232,9 @@ def _hessian(func, x, step):
     return h
 
 
-def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None, seed: int = 0,
+def sample(result: FitResult, n_steps: int = 500, n_walkers: int | None = None, seed: int = 0,
            progress: bool = True, require_convergence: bool = False,
-           max_steps: int | None = None) -> FitResult:
+           max_steps: int | None = 20000) -> FitResult:
     """Sample the posterior of a fitted hypothesis with emcee; returns a new FitResult.
 
     Parameters
@@ -242,7 +242,7 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
     result : FitResult
         The optimum to start from (walkers in a small ball around it).
     n_steps : int
-        Steps per walker.
+        Steps per walker of the first run.
     n_walkers : int, optional
         Default: max(32, 4 × number of parameters).
     seed : int
@@ -251,9 +251,13 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
         Show a tqdm progress bar.
     require_convergence : bool
         Raise ConvergenceError instead of warning when n_steps < 50 τ.
-    max_steps : int, optional
-        If given and the chain is shorter than 50 τ after ``n_steps``, keep
-        sampling in chunks until it is, or until ``max_steps``.
+    max_steps : int or None
+        While the chain is shorter than 50 τ (emcee's documented rule of
+        thumb), keep sampling in chunks until it is, or until ``max_steps``
+        steps per walker; None runs exactly ``n_steps``.  The defaults
+        (500, then up to 20000) give chains as long as each posterior needs:
+        a few hundred steps for a straight line, ~2000 for an eccentric
+        orbit.
 
     Returns
     -------
@@ -268,7 +272,7 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
     lo, hi = _full_bounds(hyp, data, like, *hyp.bounds(data))
     periodic = np.array([p.periodic is not None for p in hyp.parameters()] + [False] * like.n_extra)
     ndim = result.theta.size
-    nw = n_walkers or max(32, 4 * ndim)
+    nw = n_walkers or max(16, 2 * ndim + 2)
 
     def log_prob(theta):
         theta = np.atleast_2d(theta)
@@ -277,24 +281,21 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
         if np.any(inside):
             t = theta[inside]
             r = data.time - hyp.predict(t[:, :k], data)
-            out[inside] = _log_like(like, data, r, t[:, k:])
+            out[inside] = _log_like(like, data, r, t[:, k:]) + _log_jitter_prior(like, t[:, k:])
         out[~np.isfinite(out)] = -np.inf
         return out
 
     rng = np.random.default_rng(seed)
-    scale = np.sqrt(np.clip(np.diag(result.covariance), 0, None))
-    scale = np.where(scale > 0, scale, 1e-8 * (np.abs(result.theta) + 1))
-    ball = result.theta + 1e-2 * scale * rng.standard_normal((nw, ndim))
-    span = hi - lo
-    ball = np.where(periodic, ball, np.clip(ball, lo + 1e-9 * span, hi - 1e-9 * span))
-    moves = [(emcee.moves.DEMove(), 0.8), (emcee.moves.DESnookerMove(), 0.2)]
+    ball = _starting_ball(result, log_prob, nw, rng, lo, hi, periodic)
+    moves = [(emcee.moves.DEMove(), 0.5), (emcee.moves.StretchMove(), 0.5)]
     sampler = emcee.EnsembleSampler(nw, ndim, log_prob, vectorize=True, moves=moves)
     sampler.random_state = np.random.RandomState(seed).get_state()
     sampler.run_mcmc(ball, n_steps, progress=progress, progress_kwargs={"desc": hyp.name})
     tau = sampler.get_autocorr_time(tol=0)
     tau_max = float(np.nanmax(tau)) if np.all(np.isfinite(tau)) else float("inf")
     while max_steps is not None and n_steps < 50 * tau_max and n_steps < max_steps:
-        more = int(min(max_steps - n_steps, max(n_steps // 2, 50 * tau_max - n_steps + 1)))
+        # aim 10% past 50 tau: tau's estimate grows as the chain does
+        more = int(min(max_steps - n_steps, max(n_steps // 4, 55 * tau_max - n_steps + 1)))
         sampler.run_mcmc(None, more, progress=progress, progress_kwargs={"desc": hyp.name})
         n_steps += more
         tau = sampler.get_autocorr_time(tol=0)
@@ -323,9 +324,69 @@ def sample(result: FitResult, n_steps: int = 3000, n_walkers: int | None = None,
                      float(np.sum((resid / data.sigma) ** 2)), like, samples, diagnostics, notes)
 
 
+def _log_jitter_prior(like: Likelihood, log_jitter: np.ndarray) -> np.ndarray | float:
+    """ln prior of the jitters, sampled as ln s: uniform in s itself, so the density in ln s is ∝ s.
+
+    A log-uniform prior on a scale that may be near zero puts a plateau of
+    probability down to its arbitrary lower cut, and the posterior (and the
+    chain's mixing) depends on the cut; Gelman (2006, Bayesian Analysis 1,
+    515) recommends a uniform prior on the standard deviation instead.
+    """
+    return np.sum(log_jitter, axis=-1) if like.jitter else 0.0
+
+
+def _starting_ball(result: FitResult, log_prob, nw: int, rng, lo, hi, periodic) -> np.ndarray:
+    """Walkers drawn from the optimum's Gaussian approximation (Laplace).
+
+    Started where the posterior already is, the chain needs little burn-in,
+    and the autocorrelation time measured on a short chain is not inflated
+    by walkers spreading out of a tiny ball.  A draw outside the bounds or of
+    zero probability (the approximation can be poor along a weak direction)
+    is replaced by one from a ball of 1% of the standard deviations.
+    """
+    ndim = result.theta.size
+    scale = np.sqrt(np.clip(np.diag(result.covariance), 0, None))
+    scale = np.where(scale > 0, scale, 1e-8 * (np.abs(result.theta) + 1))
+    span = hi - lo
+    small = result.theta + 1e-2 * scale * rng.standard_normal((nw, ndim))
+    small = np.where(periodic, small, np.clip(small, lo + 1e-9 * span, hi - 1e-9 * span))
+    try:
+        wide = rng.multivariate_normal(result.theta, result.covariance, size=nw, method="eigh")
+    except (np.linalg.LinAlgError, ValueError):
+        return small
+    if not np.all(np.isfinite(wide)):
+        return small
+    lp = log_prob(wide)
+    bad = ~np.isfinite(lp)
+    wide[bad] = small[bad]
+    return wide
+
+
+def local_pool(workers: int | None = None):
+    """A process pool for :func:`compare`'s ``executor``, or None when one process is all there is.
+
+    Parameters
+    ----------
+    workers : int, optional
+        Default: one per core, up to 4 (a comparison has 8 hypotheses, two
+        of them far costlier than the rest).
+
+    Workers are started with 'spawn': a forked copy of a process whose
+    compiled N-body code has started its threads is not safe.
+    """
+    import multiprocessing
+    import os
+    from concurrent.futures import ProcessPoolExecutor
+
+    workers = min(4, os.cpu_count() or 1) if workers is None else int(workers)
+    if workers <= 1:
+        return None
+    return ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"))
+
+
 def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None = None,
-            context=None, sampled: bool = False, n_steps: int = 3000, seed: int = 0,
-            progress: bool = True, executor=None, max_steps: int | None = None) -> Comparison:
+            context=None, sampled: bool = False, n_steps: int = 500, seed: int = 0,
+            progress: bool = True, executor=None, max_steps: int | None = 20000) -> Comparison:
     """Fit every hypothesis (and optionally sample each) and sort by BIC.
 
     Parameters
@@ -349,8 +410,12 @@ def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None 
     data = _data(table, context)
     jobs = [(h, data, likelihood, sampled, n_steps, seed, progress and executor is None, max_steps)
             for h in hypotheses]
-    mapper = executor.map if executor is not None else map
-    return Comparison(list(mapper(_one, jobs)))
+    if executor is None:
+        return Comparison(list(map(_one, jobs)))
+    # the costliest first (most parameters: the longest chains), so no worker starts one last
+    order = sorted(range(len(jobs)), key=lambda i: -_as_hypothesis(jobs[i][0]).n_parameters)
+    fits = dict(zip(order, executor.map(_one, [jobs[i] for i in order])))
+    return Comparison([fits[i] for i in range(len(jobs))])
 
 
 def _one(job):

@@ -3,9 +3,11 @@
 Literature timings often have underestimated errors and outliers, so two
 options widen the plain Gaussian:
 
-* a **jitter** s added in quadrature, σ_eff² = σ² + s² (fitted, log-uniform
-  prior from 10⁻³ to 10² × the median uncertainty of the rows it applies
-  to).  One jitter may serve the whole table, or each named source may have
+* a **jitter** s added in quadrature, σ_eff² = σ² + s² (fitted as ln s
+  between 10⁻³ and 10² × the median uncertainty of the rows it applies
+  to; the sampler's prior is uniform in s, as Gelman 2006, Bayesian
+  Analysis 1, 515 recommends for a standard deviation that may be near
+  zero).  One jitter may serve the whole table, or each named source may have
   its own (compiled tables mix observers whose errors are understated by
   different amounts), with one more shared by the remaining sources;
 * a **Student-t** likelihood with ν degrees of freedom (default 4), whose

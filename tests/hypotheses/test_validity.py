@@ -1,6 +1,7 @@
 """Validity domains: each Term says where its model holds (fixed seeds, simulated tables)."""
 
 import numpy as np
+import pytest
 from simulate import design
 
 from ttvkit.hypotheses import TimingData, get_hypothesis
@@ -49,3 +50,37 @@ def test_constant_and_decay_hold_everywhere():
     data = data_over()
     assert get_hypothesis("constant-period").validity([0.0, 2.0], data) == []
     assert get_hypothesis("orbital-decay").validity([0.0, 2.0, -1e-10], data) == []
+
+
+def test_searched_periods_count_as_astropy_counts_independent_frequencies():
+    # astropy's "naive" false-alarm probability of a Lomb-Scargle peak is 1 - (1 - p_single)^N with
+    # N = T f_max independent frequencies (astropy.timeseries documentation); the look-elsewhere
+    # charge counts the sinusoid's trials as T (f_max - f_min), which differs by T f_min = 0.2
+    # (tolerance 0.5: that, and astropy's float rounding of N through two logarithms).
+    from astropy.timeseries import LombScargle
+
+    from ttvkit.diagnosis.verdicts import look_elsewhere
+    from ttvkit.hypotheses._periodic import period_range
+
+    data = data_over()
+    t = data.epoch * data.period
+    term = get_hypothesis("sinusoidal-modulation").terms[0]
+    ours = data.span * term.searched_frequencies(data)
+    f_max = 1.0 / period_range(data)[0]
+    ls = LombScargle(t, np.random.default_rng(1).normal(size=t.size))
+    z = 0.05
+    single = ls.false_alarm_probability(z, method="single")
+    naive = ls.false_alarm_probability(z, method="naive", maximum_frequency=f_max)
+    theirs = np.log1p(-naive) / np.log1p(-single)
+    assert ours == pytest.approx(theirs, abs=0.5)
+
+    # a wider search pays more: the near-resonant super-frequency reaches ~0.1/P, the
+    # precession rate 2 pi / 20 orbits, the modulation 40 cycles per baseline
+    class Fit:
+        def __init__(self, name):
+            self.hypothesis, self.data = get_hypothesis(name), data
+    charges = {name: look_elsewhere(Fit(name)) for name in
+               ("orbital-decay", "sinusoidal-modulation", "apsidal-precession", "near-resonant-perturber")}
+    assert charges["orbital-decay"] == 0.0
+    assert 0 < charges["sinusoidal-modulation"] < charges["apsidal-precession"] < charges["near-resonant-perturber"]
+    assert charges["sinusoidal-modulation"] == pytest.approx(2 * np.log(ours) - np.log(data.n))

@@ -62,7 +62,7 @@ class Parameter:
 #: Symbols for figure axes: a plot for a paper shows dP/dE, not dP_dE.
 SYMBOLS = {"T0": "T₀", "P": "P", "dP_dE": "dP/dE", "light_time_amplitude": "A (light time)",
            "companion_period": "P₃", "sqrt_e_cos_omega": "√e cos ω", "sqrt_e_sin_omega": "√e sin ω",
-           "mean_anomaly0": "M₀", "sin_amplitude": "A cos φ", "cos_amplitude": "A sin φ",
+           "mean_longitude0": "λ₀ (companion)", "sin_amplitude": "A cos φ", "cos_amplitude": "A sin φ",
            "modulation_period": "P (modulation)", "perturber_mass": "m′", "perturber_period": "P′",
            "perturber_ecosw": "e′ cos ω′", "perturber_esinw": "e′ sin ω′", "perturber_longitude": "λ′ − λ",
            "e_cos_omega0": "e cos ω₀", "e_sin_omega0": "e sin ω₀", "domega_dE": "dω/dE",
@@ -255,6 +255,16 @@ class Term(ABC):
     def derived(self, p: dict, data: TimingData) -> dict:
         """Derived quantities: name → :class:`Derived`, from parameter samples."""
         return {}
+
+    def searched_frequencies(self, data: TimingData) -> float:
+        """Width (cycles per day) of the frequency range over which this term's period is searched.
+
+        A fit free to pick the best of many periods finds a noise peak
+        somewhere; :func:`ttvkit.diagnosis.verdicts.look_elsewhere` charges
+        for the span × width independent periods tried.  0 (the default):
+        no period is searched.
+        """
+        return 0.0
 
     def validity(self, p: dict, data: TimingData) -> str | None:
         """Where this term's model holds: None inside its domain, else the reason in words.

@@ -45,6 +45,10 @@ class SinusoidalModulation(Term):
         lo, hi = period_range(data)
         return np.array([-limit, -limit, lo]), np.array([limit, limit, hi])
 
+    def searched_frequencies(self, data):
+        lo, hi = period_range(data)
+        return 1.0 / lo - 1.0 / hi
+
     def guesses(self, data, residuals):
         out = []
         for period in candidate_periods(data, residuals):

@@ -51,6 +51,10 @@ class ApsidalPrecession(Term):
         lo, hi = t0_period_bounds(data)
         return np.append(lo, [-0.1, -0.1, low_rate]), np.append(hi, [0.1, 0.1, high_rate])
 
+    def searched_frequencies(self, data):
+        low_rate, high_rate = self._rate_range(data)   # radians per orbit
+        return (high_rate - low_rate) / (2 * np.pi * data.period)
+
     def guesses(self, data, residuals):
         n_epochs = max(np.ptp(data.epoch), 10.0)
         sign = np.where(data.secondary, 1.0, -1.0)

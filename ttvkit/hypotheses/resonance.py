@@ -61,6 +61,11 @@ class NearResonantPerturber(Term):
         return (np.array([-limit, -limit, centre * (1 - self.max_distance)]),
                 np.array([limit, limit, centre * (1 + self.max_distance)]))
 
+    def searched_frequencies(self, data):
+        # the super-frequency runs from 0 (exact commensurability) to its value at the bounds
+        lo, hi = self.bounds(data)
+        return max(1.0 / self._super_period(data.period, lo[2]), 1.0 / self._super_period(data.period, hi[2]))
+
     def _super_period(self, p_transit, p_perturber):
         j = self.j
         if self.inside:

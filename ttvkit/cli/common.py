@@ -16,8 +16,8 @@ def add_sampler_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--steps", type=int, default=500,
                    help="first run of the sampler, steps per walker (default 500); a chain shorter than 50 "
                         "autocorrelation times is then extended until it is long enough or --max-steps")
-    p.add_argument("--max-steps", type=int, default=20000,
-                   help="cap on a chain's length, steps per walker (default 20000); a chain stopped by the "
+    p.add_argument("--max-steps", type=int, default=40000,
+                   help="cap on a chain's length, steps per walker (default 40000); a chain stopped by the "
                         "cap is reported as unconverged")
 
 

@@ -219,7 +219,7 @@ class DiagnosisOptions:
     n_steps: int = 500
     seed: int = 0
     progress: bool = True
-    max_steps: int | None = 20000
+    max_steps: int | None = 40000
     likelihood: object = None
     forecast_years: float = 10.0
     timing_precision_s: float | None = None

@@ -234,7 +234,7 @@ def _hessian(func, x, step):
 
 def sample(result: FitResult, n_steps: int = 500, n_walkers: int | None = None, seed: int = 0,
            progress: bool = True, require_convergence: bool = False,
-           max_steps: int | None = 20000) -> FitResult:
+           max_steps: int | None = 40000) -> FitResult:
     """Sample the posterior of a fitted hypothesis with emcee; returns a new FitResult.
 
     Parameters
@@ -255,7 +255,7 @@ def sample(result: FitResult, n_steps: int = 500, n_walkers: int | None = None, 
         While the chain is shorter than 50 τ (emcee's documented rule of
         thumb), keep sampling in chunks until it is, or until ``max_steps``
         steps per walker; None runs exactly ``n_steps``.  The defaults
-        (500, then up to 20000) give chains as long as each posterior needs:
+        (500, then up to 40000) give chains as long as each posterior needs:
         a few hundred steps for a straight line, ~2000 for an eccentric
         orbit.
 
@@ -386,7 +386,7 @@ def local_pool(workers: int | None = None):
 
 def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None = None,
             context=None, sampled: bool = False, n_steps: int = 500, seed: int = 0,
-            progress: bool = True, executor=None, max_steps: int | None = 20000) -> Comparison:
+            progress: bool = True, executor=None, max_steps: int | None = 40000) -> Comparison:
     """Fit every hypothesis (and optionally sample each) and sort by BIC.
 
     Parameters

@@ -204,7 +204,7 @@ def _trial(job):
     if excess:
         likelihood = decide_excess_noise(sim, likelihood).likelihood
     comparison = compare(sim, hypotheses, likelihood, sampled=sampled, n_steps=n_steps, seed=seed % 2 ** 32,
-                         progress=False)
+                         progress=False, max_steps=None)   # chains of exactly n_steps: the cost is known
     verdicts = {}
     for f in comparison.fits:
         verdict, _ = decide(f.name, comparison.delta_bic(f), bic_gain(f, comparison),

@@ -26,6 +26,7 @@ from ttvkit.diagnosis.verdicts import (
     EXCLUDED,
     IN_TENSION,
     PLAUSIBLE,
+    REJECT_DELTA_BIC,
     UNTESTED,
     VERDICTS,
     bic_gain,
@@ -344,9 +345,10 @@ def _fit_all(data, hypotheses, options: DiagnosisOptions, executor, notes: list)
         warnings.simplefilter("always", ConvergenceWarning)
         slow = [h for h in hypotheses if get_hypothesis(h).expensive]
         fast = [h for h in hypotheses if h not in slow]
+        # the verdict of a hypothesis the data reject (ΔBIC > 10) rests on its optimum: not sampled
         comparison = compare(data, fast, options.likelihood, sampled=options.sampled, n_steps=options.n_steps,
                              seed=options.seed, progress=options.progress, executor=executor,
-                             max_steps=options.max_steps)
+                             max_steps=options.max_steps, sample_within=REJECT_DELTA_BIC)
         if slow:   # every evaluation an N-body integration: a chain of its own length, not extended
             extra = compare(data, slow, options.likelihood, sampled=options.sampled,
                             n_steps=options.perturber_steps, seed=options.seed, progress=options.progress,
@@ -357,6 +359,7 @@ def _fit_all(data, hypotheses, options: DiagnosisOptions, executor, notes: list)
             notes.append({"kind": "convergence", "message": str(w.message)})
     for f in comparison.fits:
         for msg in f.warnings:
-            if {"kind": "convergence", "message": msg} not in notes:
-                notes.append({"kind": "convergence", "message": msg})
+            note = {"kind": "not sampled" if ": not sampled, " in msg else "convergence", "message": msg}
+            if note not in notes:
+                notes.append(note)
     return comparison

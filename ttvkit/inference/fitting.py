@@ -240,7 +240,7 @@ def sample(result: FitResult, n_steps: int = 500, n_walkers: int | None = None, 
     Parameters
     ----------
     result : FitResult
-        The optimum to start from (walkers in a small ball around it).
+        The optimum to start from (walkers drawn from its Gaussian approximation).
     n_steps : int
         Steps per walker of the first run.
     n_walkers : int, optional
@@ -350,12 +350,17 @@ def _starting_ball(result: FitResult, log_prob, nw: int, rng, lo, hi, periodic) 
     span = hi - lo
     small = result.theta + 1e-2 * scale * rng.standard_normal((nw, ndim))
     small = np.where(periodic, small, np.clip(small, lo + 1e-9 * span, hi - 1e-9 * span))
+    cov = 0.5 * (result.covariance + result.covariance.T)
+    if not np.all(np.isfinite(cov)):
+        return small
     try:
-        wide = rng.multivariate_normal(result.theta, result.covariance, size=nw, method="eigh")
-    except (np.linalg.LinAlgError, ValueError):
+        values, vectors = np.linalg.eigh(cov)
+    except np.linalg.LinAlgError:
         return small
-    if not np.all(np.isfinite(wide)):
-        return small
+    # a slightly indefinite covariance (rounding along a weak direction) is clipped to semi-definite,
+    # and the 1% ball added keeps the walkers linearly independent along a direction of zero width
+    wide = (result.theta + (rng.standard_normal((nw, ndim)) * np.sqrt(np.clip(values, 0, None))) @ vectors.T
+            + (small - result.theta))
     lp = log_prob(wide)
     bad = ~np.isfinite(lp)
     wide[bad] = small[bad]
@@ -372,7 +377,11 @@ def local_pool(workers: int | None = None):
         of them far costlier than the rest).
 
     Workers are started with 'spawn': a forked copy of a process whose
-    compiled N-body code has started its threads is not safe.
+    compiled N-body code has started its threads is not safe.  Spawned
+    workers re-import the script that started them, so in a script make
+    the pool under ``if __name__ == "__main__":`` (Python's
+    multiprocessing documentation, "Safe importing of main module"); in a
+    notebook nothing is needed.
     """
     import multiprocessing
     import os
@@ -386,7 +395,8 @@ def local_pool(workers: int | None = None):
 
 def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None = None,
             context=None, sampled: bool = False, n_steps: int = 500, seed: int = 0,
-            progress: bool = True, executor=None, max_steps: int | None = 40000) -> Comparison:
+            progress: bool = True, executor=None, max_steps: int | None = 40000,
+            sample_within: float | None = None) -> Comparison:
     """Fit every hypothesis (and optionally sample each) and sort by BIC.
 
     Parameters
@@ -396,31 +406,67 @@ def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None 
     likelihood, context
         As in :func:`fit`.
     sampled : bool
-        Also sample each posterior (:func:`sample`).
+        Also sample the posteriors (:func:`sample`), except where the
+        optimum lies outside the hypothesis' validity: there the posterior is
+        a ridge running to a prior bound (a period beyond the baseline, a
+        trend in disguise), chains of 40000 steps did not converge on it, and
+        the fit keeps its Gaussian approximation with a note in ``warnings``.
     n_steps, seed, progress, max_steps
         Passed to :func:`sample`.
     executor : object with ``map``, optional
         Runs the hypotheses concurrently (a process pool, a dask client);
         serial by default.
+    sample_within : float, optional
+        Sample only the hypotheses whose least-squares BIC is within this of
+        the lowest (the others keep their Gaussian approximation, with a
+        note); all by default.  ``diagnose`` passes the ΔBIC beyond which the
+        data reject a hypothesis, whose verdict then rests on the optimum.
 
     Returns
     -------
     Comparison
     """
     data = _data(table, context)
-    jobs = [(h, data, likelihood, sampled, n_steps, seed, progress and executor is None, max_steps)
-            for h in hypotheses]
+    fits = _mapped(executor, fit, [(data, h, likelihood) for h in hypotheses])
+    if not sampled:
+        return Comparison(fits)
+    best = min(f.bic for f in fits)
+    chosen = []
+    for i, f in enumerate(fits):
+        outside = f.hypothesis.validity(f.model_theta(), f.data)
+        if outside:
+            f.warnings.append(f"{f.name}: not sampled, since the optimum lies outside the model's validity "
+                              f"({'; '.join(outside)}); its uncertainties are the Gaussian approximation")
+        elif sample_within is not None and f.bic - best > sample_within:
+            f.warnings.append(f"{f.name}: not sampled, since its BIC exceeds the best by "
+                              f"{f.bic - best:.1f} (> {sample_within:g}); its uncertainties are the Gaussian "
+                              "approximation")
+        else:
+            chosen.append(i)
+    show = progress and executor is None
+    done = _mapped(executor, sample, [(fits[i],) for i in chosen],
+                   dict(n_steps=n_steps, seed=seed, progress=show, max_steps=max_steps))
+    for i, result in zip(chosen, done):
+        fits[i] = result
+    return Comparison(fits)
+
+
+def _mapped(executor, func, args: list, kwargs: dict | None = None) -> list:
+    """``func(*a, **kwargs)`` for each ``a``, through ``executor`` (costliest first) or in order."""
+    jobs = [(func, a, kwargs or {}) for a in args]
     if executor is None:
-        return Comparison(list(map(_one, jobs)))
-    # the costliest first (most parameters: the longest chains), so no worker starts one last
-    order = sorted(range(len(jobs)), key=lambda i: -_as_hypothesis(jobs[i][0]).n_parameters)
-    fits = dict(zip(order, executor.map(_one, [jobs[i] for i in order])))
-    return Comparison([fits[i] for i in range(len(jobs))])
+        return [_call(job) for job in jobs]
+
+    def cost(job):  # the most parameters: the longest chains and the most starts
+        first = job[1][0]
+        return -(first.theta.size if isinstance(first, FitResult) else _as_hypothesis(job[1][1]).n_parameters)
+
+    order = sorted(range(len(jobs)), key=lambda i: cost(jobs[i]))
+    results = dict(zip(order, executor.map(_call, [jobs[i] for i in order])))
+    return [results[i] for i in range(len(jobs))]
 
 
-def _one(job):
-    h, data, like, sampled, n_steps, seed, progress, max_steps = job
-    result = fit(data, h, like)
-    if sampled:
-        result = sample(result, n_steps=n_steps, seed=seed, progress=progress, max_steps=max_steps)
-    return result
+def _call(job):
+    """Top level, so that a process pool can pickle it."""
+    func, args, kwargs = job
+    return func(*args, **kwargs)

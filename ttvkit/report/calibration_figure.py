@@ -36,6 +36,10 @@ def calibration_figure(calibration) -> Figure:
         rates = [calibration.false_alarms[k] for k in names]
         right.barh(range(len(names)), rates, color=[COLOURS[6] if k == "any" else COLOURS[0] for k in names])
         right.axvline(0.05, color=COLOURS[1], ls="--", lw=1, label="5%")
+        right.set_xlim(0, max(0.1, 1.25 * max(rates)))      # a rate cannot be negative; 0 must show as 0
+        for y, rate in enumerate(rates):                     # the counts, legible even when a bar is empty
+            right.text(rate, y, f" {round(rate * calibration.n_null)}/{calibration.n_null}", va="center",
+                       fontsize="small")
         right.set_yticks(range(len(names)), names)
         right.set_xlabel(f"false alarms on {calibration.n_null} null tables")
         right.legend(loc="lower right", frameon=False)

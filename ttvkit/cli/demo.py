@@ -33,7 +33,7 @@ def add_commands(sub) -> None:
     p.add_argument("--no-sample", action="store_true", help="skip posterior sampling (faster)")
     p.add_argument("--progress", action="store_true", help="show the sampler's progress bars")
     p.add_argument("--no-perturbers", action="store_true",
-                   help="skip the N-body perturber map (about 20 s faster)")
+                   help="skip the N-body perturber map (about 15 s faster)")
     p.add_argument("--fit-perturber", action="store_true",
                    help="also fit and sample the n-body-perturber hypothesis, seeded from the map "
                         "(a few minutes more)")

@@ -20,7 +20,7 @@ __all__ = ["run_demo"]
 
 #: The demo's perturber map: the full 0.3-10x range, 200 periods x 4 phases
 #: (about 40 s on two cores; ``ttvkit perturbers`` defaults to 500 x 4).
-DEMO_MAP_PERIODS = 100
+DEMO_MAP_PERIODS = 80
 DEMO_MAP_PHASES = 2
 DEMO_MAP_RANGE = (0.3, 10.0)
 

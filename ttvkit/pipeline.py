@@ -31,7 +31,7 @@ class DiagnosisRun:
 
 def run_diagnosis(table, system, out: "str | Path", options: DiagnosisOptions | None = None, *,
                   edits: TableEdits | None = None, force: bool = False, executor=None,
-                  map_executor=None, say=print) -> DiagnosisRun:
+                  map_executor=None, say=print, calibration=None, calibration_executor=None) -> DiagnosisRun:
     """Edit the table as asked, diagnose it and write the report into ``out``.
 
     Parameters
@@ -50,6 +50,12 @@ def run_diagnosis(table, system, out: "str | Path", options: DiagnosisOptions | 
         Passed to :func:`~ttvkit.diagnosis.diagnose`.
     say : callable
         Progress lines (``print`` by default; ``lambda *a: None`` for none).
+    calibration : CalibrationOptions, optional
+        Also calibrate the verdict on this table's epochs, kinds and errors
+        (:func:`ttvkit.diagnosis.calibration.calibrate`, with the diagnosis'
+        hypotheses and likelihood) and put it in the report.
+    calibration_executor : object with ``map``, optional
+        Runs the simulations (a process pool over every core by default).
 
     Returns
     -------
@@ -65,5 +71,20 @@ def run_diagnosis(table, system, out: "str | Path", options: DiagnosisOptions | 
     if options.fit_perturber:
         say("diagnose: and fitting an N-body perturbing planet (slow)")
     diagnosis = diagnose(table, system, options, executor=executor, map_executor=map_executor)
+    if calibration is not None:
+        from dataclasses import replace
+
+        from ttvkit.diagnosis.calibration import calibrate
+        from ttvkit.hypotheses import get_hypothesis
+
+        # the same verdict as the diagnosis: its hypotheses (the N-body ones would need an integration
+        # per simulated table) and its likelihood
+        fitted = tuple(h for h in options.hypotheses if not get_hypothesis(h).expensive)
+        calibration = replace(calibration, hypotheses=fitted, likelihood=options.likelihood,
+                              excess_noise=options.excess_noise)
+        runs = calibration.n_null + calibration.n_per_amplitude * len(calibration.amplitudes) * len(calibration.inject)
+        say(f"diagnose: calibrating the verdict on {runs} simulated tables with this table's epochs and errors")
+        diagnosis.calibration = calibrate(table, calibration, executor=calibration_executor,
+                                          progress=options.progress)
     paths = write_report(diagnosis, out, force=force, notes=notes)
     return DiagnosisRun(diagnosis, notes, paths)

@@ -95,3 +95,9 @@ def test_intake_warnings_reach_the_json(capsys):
     warnings = json.loads(out)["table_warnings"]
     assert len(warnings) == 1 and "19 row(s) labelled only 'BJD'" in warnings[0]
     assert "19 row(s) labelled only 'BJD'" in err
+
+
+def test_diagnose_calibrate_too_few_fails_before_fitting(demo_inputs, tmp_path, capsys):
+    code, _, err = run(["diagnose", str(demo_inputs["timings"]), "--system", str(demo_inputs["system"]),
+                        "--out", str(tmp_path / "r"), "--calibrate", "5"], capsys)
+    assert code == 2 and "--calibrate 5" in err and not (tmp_path / "r").exists()

@@ -285,10 +285,10 @@ def calibrate(table, options: CalibrationOptions | None = None, *, executor=None
     finally:
         if own:
             executor.shutdown()
-    return _summarise(results, labels, hypotheses, options, units)
+    return _summarise(results, labels, hypotheses, options, units, float(base[1]))
 
 
-def _summarise(results, labels, hypotheses, options, units) -> Calibration:
+def _summarise(results, labels, hypotheses, options, units, period: float) -> Calibration:
     null = [v for (v, _), (name, _) in zip(results, labels) if name is None]
     others = [h for h in hypotheses if h != "constant-period"]
     false_alarms = {h: float(np.mean([v.get(h) in NEEDED for v in null])) for h in others}
@@ -308,7 +308,7 @@ def _summarise(results, labels, hypotheses, options, units) -> Calibration:
     covered = [c for (_, c) in results if c is not None]
     return Calibration(false_alarms, null_verdicts, recovery, thresholds,
                        float(np.mean(covered)) if covered else None, options.n_null, options.n_per_amplitude,
-                       units, {"error_scale": options.error_scale, "seed": options.seed,
+                       units, {"error_scale": options.error_scale, "seed": options.seed, "period": period,
                                "excess_noise": options.excess_noise, "sampled": options.sampled,
                                "hypotheses": list(hypotheses), "amplitudes_sigma": list(options.amplitudes),
                                "likelihood": (options.likelihood.describe() if options.likelihood

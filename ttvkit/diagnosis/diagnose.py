@@ -93,6 +93,7 @@ class Diagnosis:
     curves: dict = field(default_factory=dict)
     settings: dict = field(default_factory=dict)
     perturbers: object = None   # a PerturberMap when asked for
+    calibration: object = None  # a Calibration of the verdict on this table's design, when asked for
 
     @property
     def standing(self) -> list:
@@ -147,6 +148,7 @@ class Diagnosis:
             "warnings": list(self.warnings),
             "settings": self.settings,
             "perturber_map": self.perturbers.to_dict() if self.perturbers is not None else None,
+            "calibration": self.calibration.to_dict() if self.calibration is not None else None,
         }
 
 

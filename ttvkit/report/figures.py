@@ -288,7 +288,8 @@ def planetary_system_figure(curves: dict, title: str = "") -> Figure:
 
 
 def all_figures(diagnosis) -> dict:
-    """name → Figure for every figure of the report (the perturber map when the diagnosis has one)."""
+    """name → Figure for every figure of the report (the perturber map when the diagnosis has one;
+    the writer adds the calibration's)."""
     figures = {"oc_diagram": oc_figure(diagnosis), "periodogram": periodogram_figure(diagnosis),
                "activity_envelope": envelope_figure(diagnosis), "companion_check": companion_figure(diagnosis),
                "forecast": forecast_figure(diagnosis), "posterior_corner": corner_figure(diagnosis)}

@@ -50,6 +50,9 @@ _CAPTIONS = {
                      "masses, coloured by how much they improve χ²; the dashed line is the RV limit; grey "
                      "periods are Hill-unstable beside the transiting planet.",
     "posterior_corner": "Posterior of the leading hypothesis (or its Gaussian approximation when not sampled).",
+    "calibration": "Injection and recovery on simulated tables with this table's epochs, kinds and errors: "
+                   "the fraction of injected signals the verdict calls needed (binomial 1σ bars) and the "
+                   "false alarms of each hypothesis on tables without a signal.",
 }
 
 
@@ -159,6 +162,8 @@ def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
                      "UTC at the geocentre.</p>")
     if getattr(d, "perturbers", None) is not None:
         parts.append(_perturber_section(d.perturbers))
+    if getattr(d, "calibration", None) is not None:
+        parts.append(_calibration_section(d.calibration))
     parts.append("<h2>Each hypothesis</h2>")
     for a in d.assessments:
         table = a.fit.to_dict()
@@ -190,6 +195,32 @@ def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
     return "\n".join(parts)
 
 
+def _calibration_section(c) -> str:
+    """How far to trust the verdict: false alarms and the signals found half and 90% of the time."""
+    from ttvkit.hypotheses.ephemerides import MS_PER_YR_PER_S_PER_S
+
+    alarms = round(c.false_alarms["any"] * c.n_null)
+    rows = []
+    for name, rows_ in c.recovery.items():
+        unit, kind = c.amplitude_unit[name]
+        found = ", ".join(f"{a:g}σ: {f:.0%}" for a, f in rows_)
+        t = c.thresholds[name]
+        size = (f"1σ = {unit / c.settings['period'] * MS_PER_YR_PER_S_PER_S:.3g} ms/yr of dP/dt"
+                if kind == "d/epoch" and c.settings.get("period") else
+                f"1σ = {unit * 86400:.3g} s" if kind == "d" else f"1σ = {unit:.3g} {kind}")
+        half, most = (f"{v:.2g}σ" if v is not None else "not reached" for v in (t["50%"], t["90%"]))
+        rows.append(f"<tr><td><code>{_e(name)}</code></td><td>{_e(size)}</td><td>{_e(found)}</td>"
+                    f"<td>{half}</td><td>{most}</td></tr>")
+    coverage = ("" if c.coverage is None else
+                f" The 68% intervals of dP/dt covered the truth {c.coverage:.1%} of the time.")
+    return ("<h2>How far to trust this verdict</h2>"
+            f"<p>On {c.n_null} simulated tables with this table's epochs, kinds and errors and no signal, "
+            f"some hypothesis other than a constant period was called needed {alarms} times "
+            f"({c.false_alarms['any']:.1%}).{coverage} Injected signals, {c.n_per_amplitude} tables per "
+            "amplitude:</p><table><tr><th>injected</th><th>size of 1σ</th><th>called needed</th>"
+            "<th>50% at</th><th>90% at</th></tr>" + "".join(rows) + "</table>")
+
+
 def write_report(diagnosis, out: "str | Path", force: bool = False, notes: list | None = None) -> dict:
     """Write the report folder; returns name → path of what was written.
 
@@ -207,6 +238,10 @@ def write_report(diagnosis, out: "str | Path", force: bool = False, notes: list 
 
     out = Path(out)
     figures = all_figures(diagnosis)
+    if getattr(diagnosis, "calibration", None) is not None:
+        from ttvkit.report.calibration_figure import calibration_figure
+
+        figures["calibration"] = calibration_figure(diagnosis.calibration)
     written = {}
     with staged_folder(out, force) as stage:
         for name, fig in figures.items():

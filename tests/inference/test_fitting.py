@@ -189,3 +189,23 @@ def test_periodogram_flags_a_peak_beyond_the_baseline():
     inside = residual_periodogram(simulate("sinusoidal-modulation", CASES["sinusoidal-modulation"][0],
                                            np.random.default_rng(3)))
     assert not inside.best_beyond_baseline
+
+
+def test_a_workers_warnings_reach_the_caller():
+    # Through an executor (here one that sends each result through pickle, as a process pool does),
+    # a short chain's ConvergenceWarning must still reach the caller, where the command line prints
+    # it as "warning: ..." and diagnose turns it into a note; a pool's workers would otherwise print
+    # it on their own stderr in Python's raw format.
+    import pickle
+
+    class Pickling:
+        @staticmethod
+        def map(func, items):
+            return [pickle.loads(pickle.dumps(func(item))) for item in items]
+
+    table = simulate("sinusoidal-modulation", CASES["sinusoidal-modulation"][0], np.random.default_rng(2))
+    with pytest.warns(ConvergenceWarning, match="autocorrelation"):
+        result = compare(table, ["constant-period", "sinusoidal-modulation"], sampled=True, n_steps=150,
+                         max_steps=None, progress=False, executor=Pickling())
+    assert {f.name for f in result.fits} == {"constant-period", "sinusoidal-modulation"}
+    assert all(f.sampling for f in result.fits)

@@ -455,7 +455,7 @@ def _mapped(executor, func, args: list, kwargs: dict | None = None) -> list:
     """``func(*a, **kwargs)`` for each ``a``, through ``executor`` (costliest first) or in order."""
     jobs = [(func, a, kwargs or {}) for a in args]
     if executor is None:
-        return [_call(job) for job in jobs]
+        return [func(*a, **k) for func, a, k in jobs]
 
     def cost(job):  # the most parameters: the longest chains and the most starts
         first = job[1][0]
@@ -463,10 +463,19 @@ def _mapped(executor, func, args: list, kwargs: dict | None = None) -> list:
 
     order = sorted(range(len(jobs)), key=lambda i: cost(jobs[i]))
     results = dict(zip(order, executor.map(_call, [jobs[i] for i in order])))
-    return [results[i] for i in range(len(jobs))]
+    out = []
+    for i in range(len(jobs)):
+        result, caught = results[i]
+        for category, message in caught:  # a worker's warnings reach the caller (and the CLI's format)
+            warnings.warn(message, category, stacklevel=3)
+        out.append(result)
+    return out
 
 
 def _call(job):
-    """Top level, so that a process pool can pickle it."""
+    """Top level, so that a process pool can pickle it; returns the result and the warnings raised."""
     func, args, kwargs = job
-    return func(*args, **kwargs)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", TtvkitWarning)
+        result = func(*args, **kwargs)
+    return result, [(w.category, str(w.message)) for w in caught]

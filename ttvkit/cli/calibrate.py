@@ -86,31 +86,12 @@ def _cmd_calibrate(args) -> int:
         return 0
     print(f"false alarms on {result.n_null} null tables (any hypothesis called needed): "
           f"{result.false_alarms['any']:.1%}")
-    from ttvkit.hypotheses import TimingData
-
-    period = TimingData.from_table(table).period
     for name, rows in result.recovery.items():
         found = ", ".join(f"{a:g}σ: {f:.0%}" for a, f in rows)
-        t = result.thresholds[name]
-        print(f"{name} (1σ = {_unit_size(result.amplitude_unit[name], period)}): recovered {found}; "
-              f"50% at {_sigma(t['50%'])}, 90% at {_sigma(t['90%'])}")
+        print(f"{name} (1σ = {result.sigma_size(name)}): recovered {found}; "
+              f"50% at {result.found_at(name, '50%')}, 90% at {result.found_at(name, '90%')}")
     if result.coverage is not None:
         print(f"68% intervals of dP/dt cover the truth {result.coverage:.1%} of the time")
     print(f"written: {args.out}/calibration.json, calibration.png, calibration.pdf")
     return 0
 
-
-def _unit_size(unit: tuple, period: float) -> str:
-    """One σ of detectability in the units an observer quotes: ms/yr for a decay, seconds otherwise."""
-    from ttvkit.hypotheses.ephemerides import MS_PER_YR_PER_S_PER_S
-
-    value, name = unit
-    if name == "d/epoch":       # dP/dE → dP/dt = (dP/dE) / P
-        return f"{value / period * MS_PER_YR_PER_S_PER_S:.3g} ms/yr in dP/dt"
-    if name == "d":
-        return f"{value * 86400:.3g} s semi-amplitude"
-    return f"{value:.3g} {name}"
-
-
-def _sigma(value) -> str:
-    return "not reached" if value is None else f"{value:.2g}σ"

@@ -138,6 +138,23 @@ class Calibration:
     amplitude_unit: dict
     settings: dict = field(default_factory=dict)
 
+    def sigma_size(self, name: str) -> str:
+        """One σ of detectability of injected ``name`` in an observer's units (ms/yr of dP/dt for a
+        decay, seconds of semi-amplitude for a modulation)."""
+        value, unit = self.amplitude_unit[name]
+        period = self.settings.get("period")
+        if unit == "d/epoch" and period:      # dP/dE → dP/dt = (dP/dE) / P
+            return f"{value / period * MS_PER_YR_PER_S_PER_S:.3g} ms/yr of dP/dt"
+        if unit == "d":
+            return f"{value * 86400:.3g} s of semi-amplitude"
+        return f"{value:.3g} {unit}"
+
+    def found_at(self, name: str, level: str) -> str:
+        """The amplitude (σ) at which injected ``name`` is called needed ``level`` ("50%" or "90%") of
+        the time, or "not reached"."""
+        value = self.thresholds[name][level]
+        return "not reached" if value is None else f"{value:.2g}σ"
+
     def to_dict(self) -> dict:
         """Plain-JSON form."""
         return {"false_alarms": self.false_alarms, "null_verdicts": self.null_verdicts,

@@ -244,7 +244,7 @@ def sample(result: FitResult, n_steps: int = 500, n_walkers: int | None = None, 
     n_steps : int
         Steps per walker of the first run.
     n_walkers : int, optional
-        Default: max(32, 4 × number of parameters).
+        Default: max(16, 2 × number of parameters + 2).
     seed : int
         The same seed gives the same samples.
     progress : bool
@@ -427,44 +427,40 @@ def compare(table, hypotheses=DEFAULT_COMPARISON, likelihood: Likelihood | None 
     Comparison
     """
     data = _data(table, context)
-    fits = _mapped(executor, fit, [(data, h, likelihood) for h in hypotheses])
+    # the most parameters cost the most (starts, chain length): through a pool they go first
+    fits = _mapped(executor, fit, [(data, h, likelihood) for h in hypotheses],
+                   costs=[_as_hypothesis(h).n_parameters for h in hypotheses])
     if not sampled:
         return Comparison(fits)
     best = min(f.bic for f in fits)
     chosen = []
     for i, f in enumerate(fits):
         outside = f.hypothesis.validity(f.model_theta(), f.data)
-        if outside:
-            f.warnings.append(f"{f.name}: not sampled, since the optimum lies outside the model's validity "
-                              f"({'; '.join(outside)}); its uncertainties are the Gaussian approximation")
-        elif sample_within is not None and f.bic - best > sample_within:
-            f.warnings.append(f"{f.name}: not sampled, since its BIC exceeds the best by "
-                              f"{f.bic - best:.1f} (> {sample_within:g}); its uncertainties are the Gaussian "
-                              "approximation")
-        else:
+        why = (f"the optimum lies outside the model's validity ({'; '.join(outside)})" if outside else
+               f"its BIC exceeds the best by {f.bic - best:.1f} (> {sample_within:g})"
+               if sample_within is not None and f.bic - best > sample_within else None)
+        if why is None:
             chosen.append(i)
+        else:
+            f.warnings.append(f"{f.name}: not sampled, since {why}; its uncertainties are the Gaussian "
+                              "approximation")
     show = progress and executor is None
-    done = _mapped(executor, sample, [(fits[i],) for i in chosen],
-                   dict(n_steps=n_steps, seed=seed, progress=show, max_steps=max_steps))
+    done = _mapped(executor, sample, [(fits[i],) for i in chosen], costs=[fits[i].theta.size for i in chosen],
+                   kwargs=dict(n_steps=n_steps, seed=seed, progress=show, max_steps=max_steps))
     for i, result in zip(chosen, done):
         fits[i] = result
     return Comparison(fits)
 
 
-def _mapped(executor, func, args: list, kwargs: dict | None = None) -> list:
-    """``func(*a, **kwargs)`` for each ``a``, through ``executor`` (costliest first) or in order."""
-    jobs = [(func, a, kwargs or {}) for a in args]
+def _mapped(executor, func, args: list, costs: list, kwargs: dict | None = None) -> list:
+    """``func(*a, **kwargs)`` for each ``a``, in order; through ``executor`` the costliest first."""
+    kwargs = kwargs or {}
     if executor is None:
-        return [func(*a, **k) for func, a, k in jobs]
-
-    def cost(job):  # the most parameters: the longest chains and the most starts
-        first = job[1][0]
-        return -(first.theta.size if isinstance(first, FitResult) else _as_hypothesis(job[1][1]).n_parameters)
-
-    order = sorted(range(len(jobs)), key=lambda i: cost(jobs[i]))
-    results = dict(zip(order, executor.map(_call, [jobs[i] for i in order])))
+        return [func(*a, **kwargs) for a in args]
+    order = sorted(range(len(args)), key=lambda i: -costs[i])
+    results = dict(zip(order, executor.map(_call, [(func, args[i], kwargs) for i in order])))
     out = []
-    for i in range(len(jobs)):
+    for i in range(len(args)):
         result, caught = results[i]
         for category, message in caught:  # a worker's warnings reach the caller (and the CLI's format)
             warnings.warn(message, category, stacklevel=3)

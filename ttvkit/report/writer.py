@@ -197,20 +197,12 @@ def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
 
 def _calibration_section(c) -> str:
     """How far to trust the verdict: false alarms and the signals found half and 90% of the time."""
-    from ttvkit.hypotheses.ephemerides import MS_PER_YR_PER_S_PER_S
-
     alarms = round(c.false_alarms["any"] * c.n_null)
     rows = []
     for name, rows_ in c.recovery.items():
-        unit, kind = c.amplitude_unit[name]
         found = ", ".join(f"{a:g}σ: {f:.0%}" for a, f in rows_)
-        t = c.thresholds[name]
-        size = (f"1σ = {unit / c.settings['period'] * MS_PER_YR_PER_S_PER_S:.3g} ms/yr of dP/dt"
-                if kind == "d/epoch" and c.settings.get("period") else
-                f"1σ = {unit * 86400:.3g} s" if kind == "d" else f"1σ = {unit:.3g} {kind}")
-        half, most = (f"{v:.2g}σ" if v is not None else "not reached" for v in (t["50%"], t["90%"]))
-        rows.append(f"<tr><td><code>{_e(name)}</code></td><td>{_e(size)}</td><td>{_e(found)}</td>"
-                    f"<td>{half}</td><td>{most}</td></tr>")
+        rows.append(f"<tr><td><code>{_e(name)}</code></td><td>1σ = {_e(c.sigma_size(name))}</td>"
+                    f"<td>{_e(found)}</td><td>{c.found_at(name, '50%')}</td><td>{c.found_at(name, '90%')}</td></tr>")
     coverage = ("" if c.coverage is None else
                 f" The 68% intervals of dP/dt covered the truth {c.coverage:.1%} of the time.")
     return ("<h2>How far to trust this verdict</h2>"

@@ -6,8 +6,11 @@ for batches of hundreds of systems, and nothing in the library used it.)
 This module is the algorithm -- Jacobi coordinates, the
 kick–drift–kick step with the modified kick, the fitted symplectic
 corrector, detection of g = x·vx + y·vy changing sign from − to + with the
-planet in front, Newton refinement from the synchronised start of the step
-and the corrector's inverse at each transit -- written as scalar loops over
+planet in front (on the Jacobi vectors, which costs no change of
+coordinates per step), Newton refinement on map steps from the synchronised
+start of the step (its first half-kick from the acceleration the main loop
+already has), the output corrector's inverse, and the last correction solved
+on the planet's local two-body series -- written as scalar loops over
 bodies for one system and compiled with numba (a general-purpose JIT
 compiler for numpy code; Lam, Pitrou & Seibert 2015), with the loop over
 systems in the compiled code too (``prange``: threads over systems).
@@ -31,7 +34,7 @@ __all__ = ["integrate"]
 _G = 0.01720209895 ** 2
 
 
-@njit(cache=True, fastmath=False, inline="always")
+@njit(cache=True, error_model="numpy", inline="always")
 def _drift_one(r, v, i, mu, h):
     """Kepler drift of Jacobi orbit ``i`` by ``h`` (Gauss f and g; elliptic only)."""
     x0, y0, z0 = r[i, 0], r[i, 1], r[i, 2]
@@ -67,40 +70,40 @@ def _drift_one(r, v, i, mu, h):
     v[i, 0], v[i, 1], v[i, 2] = fdot * x0 + gdot * vx, fdot * y0 + gdot * vy, fdot * z0 + gdot * vz
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, error_model="numpy", inline="always")
 def _drift(r, v, mu, h):
     for i in range(r.shape[0]):
         _drift_one(r, v, i, mu[i], h)
 
 
-@njit(cache=True, inline="always")
-def _from_jacobi(r, m, cum, x):
-    """Barycentric vectors x[B, 3] of Jacobi vectors r[N, 3] (star first in x)."""
+@njit(cache=True, error_model="numpy", inline="always")
+def _from_jacobi(r, m, icum, x):
+    """Barycentric vectors x[B, 3] of Jacobi vectors r[N, 3] (star first in x); icum = 1/cumulative mass."""
     n = r.shape[0]
     cx, cy, cz = 0.0, 0.0, 0.0
     for i in range(n, 0, -1):
-        f = m[i] / cum[i]
+        f = m[i] * icum[i]
         px, py, pz = cx - f * r[i - 1, 0], cy - f * r[i - 1, 1], cz - f * r[i - 1, 2]
         x[i, 0], x[i, 1], x[i, 2] = px + r[i - 1, 0], py + r[i - 1, 1], pz + r[i - 1, 2]
         cx, cy, cz = px, py, pz
     x[0, 0], x[0, 1], x[0, 2] = cx, cy, cz
 
 
-@njit(cache=True, inline="always")
-def _to_jacobi_accel(acc, m, cum, out):
-    """Jacobi-frame accelerations out[N, 3] of barycentric ones acc[B, 3]."""
+@njit(cache=True, error_model="numpy", inline="always")
+def _to_jacobi_accel(acc, m, icum, out):
+    """Jacobi-frame accelerations out[N, 3] of barycentric ones acc[B, 3]; icum = 1/cumulative mass."""
     sx, sy, sz = 0.0, 0.0, 0.0
     for i in range(out.shape[0]):
         sx += m[i] * acc[i, 0]
         sy += m[i] * acc[i, 1]
         sz += m[i] * acc[i, 2]
-        out[i, 0] = acc[i + 1, 0] - sx / cum[i]
-        out[i, 1] = acc[i + 1, 1] - sy / cum[i]
-        out[i, 2] = acc[i + 1, 2] - sz / cum[i]
+        out[i, 0] = acc[i + 1, 0] - sx * icum[i]
+        out[i, 1] = acc[i + 1, 1] - sy * icum[i]
+        out[i, 2] = acc[i + 1, 2] - sz * icum[i]
 
 
-@njit(cache=True)
-def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_p, a, da):
+@njit(cache=True, error_model="numpy")
+def _kick(r, v, h, mod, m, gm, icum, mu, work_x, work_a, work_dx, work_p, a, da):
     """v += h (a + mod·(∂a/∂r)·a): the interaction kick; ``mod`` = κ step² (0 for a plain kick).
 
     ``work_p`` [pairs, 5] keeps each pair's separation, 1/r² and 1/r³ from
@@ -108,7 +111,7 @@ def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_p, a, da):
     """
     nb = m.shape[0]
     n = nb - 1
-    _from_jacobi(r, m, cum, work_x)
+    _from_jacobi(r, m, icum, work_x)
     for i in range(nb):
         for k in range(3):
             work_a[i, k] = 0.0
@@ -128,14 +131,14 @@ def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_p, a, da):
             work_a[j, 0] -= gm[i] * inv_r3 * dx
             work_a[j, 1] -= gm[i] * inv_r3 * dy
             work_a[j, 2] -= gm[i] * inv_r3 * dz
-    _to_jacobi_accel(work_a, m, cum, a)
+    _to_jacobi_accel(work_a, m, icum, a)
     for i in range(n):
         rn2 = r[i, 0] ** 2 + r[i, 1] ** 2 + r[i, 2] ** 2
         kep = mu[i] / (rn2 * np.sqrt(rn2))
         for k in range(3):
             a[i, k] += kep * r[i, k]
     if mod != 0.0:
-        _from_jacobi(a, m, cum, work_dx)
+        _from_jacobi(a, m, icum, work_dx)
         for i in range(nb):
             for k in range(3):
                 work_a[i, k] = 0.0
@@ -157,7 +160,7 @@ def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_p, a, da):
                 work_a[j, 0] -= gm[i] * tx
                 work_a[j, 1] -= gm[i] * ty
                 work_a[j, 2] -= gm[i] * tz
-        _to_jacobi_accel(work_a, m, cum, da)
+        _to_jacobi_accel(work_a, m, icum, da)
         for i in range(n):
             rn2 = r[i, 0] ** 2 + r[i, 1] ** 2 + r[i, 2] ** 2
             kep = mu[i] / (rn2 * np.sqrt(rn2))
@@ -170,33 +173,30 @@ def _kick(r, v, h, mod, m, gm, cum, mu, work_x, work_a, work_dx, work_p, a, da):
             v[i, k] += h * a[i, k]
 
 
-@njit(cache=True)
-def _apply(kinds, values, h, r, v, m, gm, cum, mu, wx, wa, wdx, wp, a, da):
+@njit(cache=True, error_model="numpy", inline="always")
+def _keep(a, da, mod, am, ap):
+    """Copy a kick's acceleration (``a``, modified) and its plain part a − mod·da."""
+    for i in range(a.shape[0]):
+        for k in range(3):
+            am[i, k] = a[i, k]
+            ap[i, k] = a[i, k] - mod * da[i, k] if mod != 0.0 else a[i, k]
+
+
+@njit(cache=True, error_model="numpy")
+def _apply(kinds, values, h, r, v, m, gm, icum, mu, wx, wa, wdx, wp, a, da):
     """A corrector sequence: kinds 0 = drift, 1 = plain kick, by values·h."""
     for q in range(kinds.shape[0]):
         if kinds[q] == 0:
             _drift(r, v, mu, values[q] * h)
         else:
-            _kick(r, v, values[q] * h, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+            _kick(r, v, values[q] * h, 0.0, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
 
 
-@njit(cache=True)
-def _g_rel(r, v, m, cum, planet, wx, wv):
-    """g = x·vx + y·vy of ``planet`` (Jacobi index) relative to the star, and its z."""
-    _from_jacobi(r, m, cum, wx)
-    _from_jacobi(v, m, cum, wv)
-    px = wx[planet + 1, 0] - wx[0, 0]
-    py = wx[planet + 1, 1] - wx[0, 1]
-    vx = wv[planet + 1, 0] - wv[0, 0]
-    vy = wv[planet + 1, 1] - wv[0, 1]
-    return px * vx + py * vy, wx[planet + 1, 2] - wx[0, 2]
-
-
-@njit(cache=True)
-def _newton(r, v, m, cum, planet, mu_e, wx, wv):
+@njit(cache=True, error_model="numpy")
+def _newton(r, v, m, icum, planet, mu_e, wx, wv):
     """g / (dg/dt) of ``planet`` with the two-body acceleration."""
-    _from_jacobi(r, m, cum, wx)
-    _from_jacobi(v, m, cum, wv)
+    _from_jacobi(r, m, icum, wx)
+    _from_jacobi(v, m, icum, wv)
     px = wx[planet + 1, 0] - wx[0, 0]
     py = wx[planet + 1, 1] - wx[0, 1]
     pz = wx[planet + 1, 2] - wx[0, 2]
@@ -208,45 +208,85 @@ def _newton(r, v, m, cum, planet, mu_e, wx, wv):
     return (px * vx + py * vy) / dg
 
 
-@njit(cache=True)
-def _refine(p, tau, h, r0, vs, m, gm, cum, mu, corrector, inv_k, inv_v, wx, wv, wa, wdx, wp, a, da, rt, vt):
+@njit(cache=True, error_model="numpy")
+def _local_root(r, v, m, icum, planet, mu_e, wx, wv):
+    """The time offset δ from the state (r, v) at which g of ``planet`` is zero, solved locally.
+
+    The planet's position relative to the star is continued as the Taylor
+    series R + V δ + A δ²/2 + J δ³/6 of its two-body motion (A and J the
+    Keplerian acceleration and jerk) and g = x·vx + y·vy is solved on it by
+    Newton.  Used only where |δ| is small (after full map steps have brought
+    the trial time within ~1e-5 d): the series' truncation is ~(nδ)⁴/24 of
+    the orbit and the perturbing acceleration left out moves the planet by
+    ~(a_pert/a_Kepler)(nδ)²/2 of it, both far below 1e-10 d in time.
+    """
+    _from_jacobi(r, m, icum, wx)
+    _from_jacobi(v, m, icum, wv)
+    rx = wx[planet + 1, 0] - wx[0, 0]
+    ry = wx[planet + 1, 1] - wx[0, 1]
+    rz = wx[planet + 1, 2] - wx[0, 2]
+    vx = wv[planet + 1, 0] - wv[0, 0]
+    vy = wv[planet + 1, 1] - wv[0, 1]
+    vz = wv[planet + 1, 2] - wv[0, 2]
+    d2 = rx * rx + ry * ry + rz * rz
+    k = -mu_e / (d2 * np.sqrt(d2))
+    ax, ay = k * rx, k * ry
+    q = 3 * (rx * vx + ry * vy + rz * vz) / d2
+    jx, jy = k * (vx - q * rx), k * (vy - q * ry)
+    delta = 0.0
+    for _ in range(8):
+        x = rx + delta * (vx + delta * (0.5 * ax + delta * jx / 6))
+        y = ry + delta * (vy + delta * (0.5 * ay + delta * jy / 6))
+        ux = vx + delta * (ax + 0.5 * delta * jx)
+        uy = vy + delta * (ay + 0.5 * delta * jy)
+        g = x * ux + y * uy
+        dg = ux * ux + uy * uy + x * (ax + delta * jx) + y * (ay + delta * jy)
+        step = g / dg
+        delta -= step
+        if abs(step) < 1e-13:
+            break
+    return delta
+
+
+@njit(cache=True, error_model="numpy")
+def _refine(p, tau, h, r0, vs, a0, m, gm, icum, mu, corrector, inv_k, inv_v, wx, wv, wa, wdx, wp, a, da, rt, vt):
     """Time of planet ``p``'s transit within the step from the synchronised state (r0, vs).
 
-    Newton on g over a map step of trial length τ with plain kicks; with the
-    corrector, back to real coordinates at the transit and one more Newton
-    step.  Leaves the refined barycentric state in ``wx``.
+    Newton on g over a map step of trial length τ with plain kicks (the
+    first from ``a0``, the plain acceleration at r0, kept by the caller; its
+    derivative the two-body one), until a correction is below 1e-5 d (at
+    most three map steps from the linear crossing; usually two).  With the
+    corrector, the state at that trial τ goes back to real coordinates.
+    The last correction is then solved locally on the planet's two-body
+    Taylor series (:func:`_local_root`), which costs no map step.  Leaves
+    the barycentric state at the last trial τ in ``wx``.
     """
     mu_e = _G * (m[0] + m[p + 1])
     for _ in range(40):
         rt[:, :] = r0
-        vt[:, :] = vs
-        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        for i in range(rt.shape[0]):      # the first half-kick: a0 is the plain acceleration at r0
+            for k in range(3):
+                vt[i, k] = vs[i, k] + 0.5 * tau * a0[i, k]
         _drift(rt, vt, mu, tau)
-        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-        delta = _newton(rt, vt, m, cum, p, mu_e, wx, wv)
-        tau = min(max(tau - delta, 0.0), h)
-        if not abs(delta) >= 1e-10:
+        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
+        delta = _newton(rt, vt, m, icum, p, mu_e, wx, wv)
+        if abs(delta) < 1e-5:
             break
+        tau = min(max(tau - delta, -h), 2 * h)     # the true crossing may sit just outside the step
     if corrector:
-        rt[:, :] = r0
-        vt[:, :] = vs
-        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-        _drift(rt, vt, mu, tau)
-        _kick(rt, vt, 0.5 * tau, 0.0, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-        _apply(inv_k, inv_v, h, rt, vt, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
-        tau = tau - _newton(rt, vt, m, cum, p, mu_e, wx, wv)
-    return tau
+        _apply(inv_k, inv_v, h, rt, vt, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
+    return tau + _local_root(rt, vt, m, icum, p, mu_e, wx, wv)
 
 
-@njit(cache=True)
+@njit(cache=True, error_model="numpy")
 def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
                 fwd_k, fwd_v, inv_k, inv_v, kappa, out):
     nb = m.shape[0]
     n = nb - 1
     k_max = out.shape[1]
-    cum = np.cumsum(m)
+    icum = 1.0 / np.cumsum(m)             # reciprocal cumulative masses (Jacobi weights)
     gm = _G * m
-    mu = _G * cum[1:]
+    mu = _G * np.cumsum(m)[1:]
     wx = np.empty((nb, 3))
     wv = np.empty((nb, 3))
     wa = np.empty((nb, 3))
@@ -256,21 +296,32 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
     da = np.empty((n, 3))
     r0 = np.empty((n, 3))
     v0 = np.empty((n, 3))
+    vs = np.empty((n, 3))
+    # the accelerations (modified and plain) of the last main-loop kick, at
+    # the positions the next step starts from: the refinement of a transit
+    # needs both at the start of its step, and recomputing them costs a kick
+    am_end = np.empty((n, 3))
+    ap_end = np.empty((n, 3))
+    am = np.empty((n, 3))
+    ap = np.empty((n, 3))
     rt = np.empty((n, 3))
     vt = np.empty((n, 3))
     mod = kappa * h * h
     if corrector:
-        _apply(fwd_k, fwd_v, h, r, v, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _apply(fwd_k, fwd_v, h, r, v, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
     g_old = np.empty(n)
     count = np.zeros(n, np.int64)
     hit = np.zeros(n, np.bool_)
     tau0 = np.empty(n)
     for p in range(n):
-        g_old[p], _ = _g_rel(r, v, m, cum, p, wx, wv)
-    _kick(r, v, 0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        g_old[p] = r[p, 0] * v[p, 0] + r[p, 1] * v[p, 1]
+    _kick(r, v, 0.5 * h, mod, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
+    _keep(a, da, mod, am_end, ap_end)
     for step in range(n_steps):
         r0[:, :] = r
         v0[:, :] = v
+        am[:, :] = am_end
+        ap[:, :] = ap_end
         _drift(r, v, mu, h)
         broken = False
         for p in range(n):
@@ -281,17 +332,18 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
                 for q in range(k_max):
                     out[p, q] = np.nan
             return
-        _from_jacobi(r, m, cum, wx)
-        _from_jacobi(v, m, cum, wv)
+        # detection on the Jacobi vectors (a proxy: the planet relative to the
+        # star and the planets inside it, offset from the star by ~m_inner/M_*
+        # of the inner orbits; the crossing moves by far less than a step), so
+        # a step costs no change of coordinates; the refinement solves the
+        # true, star-relative g and may end just outside the step
         hits = 0
         for p in range(n):
             hit[p] = False
             if not wanted[p]:
                 continue
-            px = wx[p + 1, 0] - wx[0, 0]
-            py = wx[p + 1, 1] - wx[0, 1]
-            g_new = px * (wv[p + 1, 0] - wv[0, 0]) + py * (wv[p + 1, 1] - wv[0, 1])
-            if g_old[p] < 0 and g_new >= 0 and wx[p + 1, 2] - wx[0, 2] > 0:
+            g_new = r[p, 0] * v[p, 0] + r[p, 1] * v[p, 1]
+            if g_old[p] < 0 and g_new >= 0 and r[p, 2] > 0:
                 c = count[p]
                 count[p] += 1
                 if c < k_max and want_epoch[c]:
@@ -299,24 +351,26 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
                     tau0[p] = h * g_old[p] / (g_old[p] - g_new)     # Newton starts at the linear crossing
                     hits += 1
             g_old[p] = g_new
-        _kick(r, v, h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _kick(r, v, h, mod, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
+        _keep(a, da, mod, am_end, ap_end)
         if hits == 0:
             continue
-        # refine from the synchronised start of the step: Newton on a map step of
-        # trial length τ with plain kicks
-        vs = v0.copy()
-        _kick(r0, vs, -0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        # refine from the synchronised start of the step (the velocities without
+        # the last half-kick): Newton on a map step of trial length τ with plain kicks
+        for i in range(n):
+            for k in range(3):
+                vs[i, k] = v0[i, k] - 0.5 * h * am[i, k]
         for p in range(n):
             if not hit[p]:
                 continue
-            t = step * h + _refine(p, tau0[p], h, r0, vs, m, gm, cum, mu, corrector, inv_k, inv_v,
+            t = step * h + _refine(p, tau0[p], h, r0, vs, ap, m, gm, icum, mu, corrector, inv_k, inv_v,
                                    wx, wv, wa, wdx, wp, a, da, rt, vt)
             if light_time:            # the star's barycentric z (wx holds the refined state)
                 t -= wx[0, 2] / C_AU_PER_DAY
             out[p, count[p] - 1] = t
-    _kick(r, v, -0.5 * h, mod, m, gm, cum, mu, wx, wa, wdx, wp, a, da)     # synchronise the final state
+    _kick(r, v, -0.5 * h, mod, m, gm, icum, mu, wx, wa, wdx, wp, a, da)     # synchronise the final state
     if corrector:
-        _apply(inv_k, inv_v, h, r, v, m, gm, cum, mu, wx, wa, wdx, wp, a, da)
+        _apply(inv_k, inv_v, h, r, v, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
 
 
 def _batch(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector, fwd_k, fwd_v, inv_k, inv_v,
@@ -326,8 +380,8 @@ def _batch(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector, fwd_k
                     fwd_k, fwd_v, inv_k, inv_v, kappa, out[s])
 
 
-_batch_serial = njit(cache=True)(_batch)
-_batch_threads = njit(cache=True, parallel=True)(_batch)
+_batch_serial = njit(cache=True, error_model="numpy")(_batch)
+_batch_threads = njit(cache=True, error_model="numpy", parallel=True)(_batch)
 _PARALLEL = threading.Lock()
 
 

@@ -49,12 +49,20 @@ from ttvkit.errors import MissingValueError
 from ttvkit.hypotheses import (
     ApsidalPrecession,
     LightTravelTime,
+    MagneticBraking,
+    MassTransfer,
     NBodyPerturber,
     NearResonantPerturber,
     OrbitalDecay,
     SinusoidalModulation,
 )
 from ttvkit.physics import activity_budgets
+from ttvkit.physics.binaries import (
+    applegate_for_each_star,
+    period_change_from_braking,
+    roche_lobe_radius,
+    thermal_transfer_rate,
+)
 from ttvkit.physics.companions import (
     hill_stable,
     light_time_companion,
@@ -115,32 +123,49 @@ def modulation_checks(fit, system, term=None) -> list[Check]:
     amp = fit.estimate("semi_amplitude").value * u.s
     p_mod = fit.estimate("modulation_period_yr").value * u.yr
     try:
-        budgets = activity_budgets(system, amp, p_mod)
+        per_star = _budgets_of_each_star(system, amp, p_mod)
     except MissingValueError as exc:
         return [_untested("activity energy budget", exc)]
-    count = 100     # each draw solves the finite-shell minimisation (~4 ms)
+    if not per_star:
+        return [_untested("activity energy budget", MissingValueError(
+            "neither star has what its Applegate budget needs"))]
+    count = 100     # each draw solves the finite-shell minimisation (~4 ms per star)
     amps = posterior_draws(fit, "semi_amplitude", count)
     periods = posterior_draws(fit, "modulation_period_yr", count)
-    ratios = np.array([min(b.energy_ratio for b in activity_budgets(s, a * u.s, q * u.yr).values())
+    ratios = np.array([min(b.energy_ratio for star in _budgets_of_each_star(s, a * u.s, q * u.yr).values()
+                           for b in star.values())
                        for s, a, q in zip(_systems(system, count), amps, periods)])
     p_ok = probability_below(ratios, 1.0, log=True)
     sigma = tension_sigma(p_ok)
     out = []
-    for model, b in budgets.items():
-        out.append(Check(f"energy ratio ({model})", b.energy_ratio, 1.0, "",
-                         "pass" if b.energy_ratio <= 1 else "fail",
-                         f"the {model} model needs {b.energy_ratio:.3g}× the energy the star radiates "
-                         f"in one {p_mod:.3g} cycle ({b.structure}; spin: {b.spin_used})", False))
-    lenient = min(budgets.values(), key=lambda b: b.energy_ratio)
+    two = len(per_star) > 1 or system.is_binary
+    for role, budgets in per_star.items():
+        who = f"{_STAR_NAMES[role]}, " if two else ""
+        for model, b in budgets.items():
+            out.append(Check(f"energy ratio ({who}{model})", b.energy_ratio, 1.0, "",
+                             "pass" if b.energy_ratio <= 1 else "fail",
+                             f"the {model} model needs {b.energy_ratio:.3g}× the energy the {_STAR_NAMES[role] if two else 'star'} "
+                             f"radiates in one {p_mod:.3g} cycle ({b.structure}; spin: {b.spin_used})", False))
+    role, lenient = min(((r, b) for r, budgets in per_star.items() for b in budgets.values()),
+                        key=lambda rb: rb[1].energy_ratio)
+    star = _STAR_NAMES[role] if two else "the star"
+    if two:
+        star = f"the {star}"
     fails = sigma >= FAIL_SIGMA and lenient.energy_ratio > 1
-    spread = f"; P(the star can power it) = {p_ok:.3g} over the fit's and the star's uncertainties"
+    spread = (f"; P({'either star' if two else 'the star'} can power it) = {p_ok:.3g} over the fit's and "
+              f"the {'stars' if two else 'star'}' uncertainties")
     out.append(Check("activity energy budget", lenient.energy_ratio, 1.0, "", "fail" if fails else "pass",
-                     (f"the star cannot power a {amp:.3g} O−C semi-amplitude over {p_mod:.3g}: even the "
-                      f"{lenient.model} model needs {lenient.energy_ratio:.3g}× its output "
-                      f"(largest it can power: {lenient.max_amplitude:.3g}){spread} ({sigma:.1f}σ)")
+                     (f"{'neither star' if two else 'the star'} can power a {amp:.3g} O−C semi-amplitude over "
+                      f"{p_mod:.3g}: even the {lenient.model} model of {star} needs {lenient.energy_ratio:.3g}× "
+                      f"its output (largest it can power: {lenient.max_amplitude:.3g}){spread} ({sigma:.1f}σ)")
                      if fails else
-                     (f"the star can power a {amp:.3g} O−C semi-amplitude over {p_mod:.3g} "
-                      f"(largest it can power: {lenient.max_amplitude:.3g}, {lenient.model} model){spread}"),
+                     (f"{star} can power a {amp:.3g} O−C semi-amplitude over {p_mod:.3g} "
+                      f"(largest it can power: {lenient.max_amplitude:.3g}, {lenient.model} model){spread}")
+                     if lenient.energy_ratio <= 1 else
+                     (f"at the best fit even {star} would need {lenient.energy_ratio:.3g}× its output for a "
+                      f"{amp:.3g} O−C semi-amplitude over {p_mod:.3g} (largest it can power: "
+                      f"{lenient.max_amplitude:.3g}, {lenient.model} model), but not beyond the "
+                      f"uncertainties{spread} ({sigma:.1f}σ)"),
                      tension=sigma, probability=p_ok))
     out.append(Check("differential rotation ΔΩ/Ω", lenient.delta_Omega_over_Omega, None, "", "note",
                      f"ΔΩ/Ω = {lenient.delta_Omega_over_Omega:.3g} ({lenient.model}); active stars show "
@@ -158,6 +183,22 @@ def modulation_checks(fit, system, term=None) -> list[Check]:
                          "note", f"P_mod = {p_mod:.3g} {'matches' if rel < 0.3 else 'differs from'} the "
                          f"known activity cycle of {cycle:.3g} (within 30%)", False))
     return out
+
+
+#: How the report names each star of a binary.
+_STAR_NAMES = {"primary": "primary star ([star])", "secondary": "other star ([other_star])"}
+
+
+def _budgets_of_each_star(system, amplitude, modulation_period) -> dict:
+    """{role: {model: ActivityBudget}} for the star, and for the other star of a binary.
+
+    A star lacking a value its budget needs is left out (a binary); a single
+    star lacking one raises MissingValueError.
+    """
+    if not system.is_binary:
+        return {"primary": activity_budgets(system, amplitude, modulation_period)}
+    return {role: b.budgets for role, b in applegate_for_each_star(
+        system, system.other_star, amplitude, modulation_period).items() if b.budgets is not None}
 
 
 def decay_checks(fit, system, term=None) -> list[Check]:
@@ -412,6 +453,127 @@ def _graded_perturber(draws, system, eccentricity: float) -> dict:
     return out
 
 
+def _binary_stars(system):
+    """(star, other) of a binary as Star objects: the other star in full, or a star of the companion's mass
+    and radius; MissingValueError without the companion's mass."""
+    from ttvkit.physics.system import OtherStar
+
+    if system.is_binary:
+        return system.star, system.other_star
+    mass = system.companion.need("mass", "a binary's period-change checks")
+    return system.star, OtherStar(mass=mass.to(u.Msun), radius=system.companion.radius)
+
+
+def mass_transfer_checks(fit, system, term=None) -> list[Check]:
+    """Roche-lobe overflow of the donor the sign names (decisive), its thermal-timescale rate (tension)."""
+    try:
+        star, other = _binary_stars(system)
+    except MissingValueError as exc:
+        return [_untested("donor fills its Roche lobe", exc)]
+    if not fit.has("transfer_rate"):
+        return [_untested("donor fills its Roche lobe", MissingValueError("the stars' masses are needed"))]
+    est = fit.estimate("transfer_rate")
+    rates = posterior_draws(fit, "transfer_rate")
+    lighter_is_star = star.mass <= other.mass
+    grows = est.value >= 0                       # the lighter star gives: the period grows
+    donor, accretor = ((star, other) if lighter_is_star == grows else (other, star))
+    donor_name = ("the primary ([star])" if donor is star else "the other star ([other_star])")
+    direction = "lighter → heavier (P grows)" if grows else "heavier → lighter (P shrinks)"
+    out = [Check("transfer rate", est.value, None, "Msun/yr", "note",
+                 f"conservative transfer of {abs(est.value):.3g} M☉/yr from {donor_name}, {direction}", False)]
+    draws = _systems(system, DRAWS)
+    if donor.radius is None:
+        out.append(_untested("donor fills its Roche lobe", MissingValueError(
+            f"{donor_name}'s radius is needed for its Roche lobe")))
+    else:
+        fill = []
+        for s in draws:
+            d, a = _binary_stars(s)
+            if donor is not star:
+                d, a = a, d
+            if d.radius is None:
+                continue
+            fill.append(float((d.radius / roche_lobe_radius(d.mass, a.mass, s.semi_major_axis)).decompose()))
+        fill = np.array(fill)
+        value = float(np.median(fill))
+        p_fills = 1.0 - probability_below(fill, 1.0)
+        sigma = tension_sigma(p_fills)
+        fails = value < 1 and sigma >= FAIL_SIGMA
+        out.append(Check("donor fills its Roche lobe", value, 1.0, "R/R_L", "fail" if fails else "pass",
+                         (f"{donor_name} fills {value:.2g} of its Roche lobe (Eggleton 1983, ApJ 268, 368): "
+                          f"it cannot overflow it, so no conservative transfer from it "
+                          f"(P(fills) = {p_fills:.2g}, {sigma:.1f}σ)") if fails else
+                         f"{donor_name} fills {value:.2g} of its Roche lobe (Eggleton 1983, ApJ 268, 368)",
+                         tension=sigma, probability=p_fills))
+    try:
+        limit = thermal_transfer_rate(donor).to_value(u.Msun / u.yr)
+    except MissingValueError as exc:
+        out.append(_untested("thermal-timescale rate", exc))
+        return out
+    p_below = probability_below(np.abs(rates), limit, log=True)
+    sigma = tension_sigma(p_below)
+    above = abs(est.value) > limit and sigma >= TENSION_SIGMA
+    out.append(Check("thermal-timescale rate", abs(est.value), limit, "Msun/yr", "tension" if above else "pass",
+                     f"|Ṁ| = {abs(est.value):.3g} M☉/yr against the donor's M/τ_KH = {limit:.3g} M☉/yr"
+                     + (f": faster than it can sustain for long, a short-lived phase if real ({sigma:.1f}σ)"
+                        if above else ""), tension=sigma, probability=p_below))
+    return out
+
+
+def magnetic_braking_checks(fit, system, term=None) -> list[Check]:
+    """Sign of dP/dt (braking only shortens the period; decisive); the rate against the RVJ 1983 law."""
+    est = fit.estimate("dP_dt")
+    rates = posterior_draws(fit, "dP_dt")
+    out = []
+    p_shrinks = probability_below(rates, 0.0)
+    sigma = tension_sigma(p_shrinks)
+    grows = est.value > 0 and sigma >= FAIL_SIGMA
+    out.append(Check("sign of dP/dt", est.value, 0.0, "ms/yr", "fail" if grows else "pass",
+                     (f"the period grows (dP/dt = {est.value:+.3g} ms/yr; P(shrinking) = {p_shrinks:.2g}): "
+                      "magnetic braking only shortens it") if grows else
+                     f"the period shrinks or is unchanged within its errors (P(shrinking) = {p_shrinks:.2g})",
+                     tension=sigma if grows else None, probability=p_shrinks))
+    try:
+        star, other = _binary_stars(system)
+        period = system.orbit.need("period", "the braking law")
+    except MissingValueError as exc:
+        out.append(_untested("braking law (Rappaport, Verbunt & Joss 1983)", exc))
+        return out
+    predicted = {}
+    for braked, companion in ((star, other), (other, star)):
+        if braked.radius is None or not _convective(braked):
+            continue
+        predicted[braked is star] = {g: period_change_from_braking(braked, companion.mass, period, gamma=g)
+                                     .to_value(u.ms / u.yr) for g in (0.0, 4.0)}
+    if not predicted:
+        out.append(Check("braking law (Rappaport, Verbunt & Joss 1983)", None, None, "ms/yr", "note",
+                         "neither star has a convective envelope the law applies to (0.1–1.3 M☉ on the main "
+                         "sequence, from memory) or a radius: no braking expected", False))
+        return out
+    weakest = sum(min(abs(v[0.0]), abs(v[4.0])) for v in predicted.values())
+    strongest = sum(max(abs(v[0.0]), abs(v[4.0])) for v in predicted.values())
+    inside = weakest / 10 <= abs(est.value) <= strongest * 10
+    out.append(Check("braking law (Rappaport, Verbunt & Joss 1983)", est.value, -strongest, "ms/yr",
+                     "pass" if inside else "tension",
+                     f"the law gives dP/dt = −{weakest:.3g} to −{strongest:.3g} ms/yr for the convective "
+                     f"star{'s' if len(predicted) > 1 else ''} (γ = 0–4); fitted {est.value:+.3g} ms/yr"
+                     + ("" if inside else ", more than 10× outside that range (the law's calibration is "
+                        "uncertain by about an order of magnitude, from memory: a tension, not an exclusion)"),
+                     decisive=True))
+    return out
+
+
+def _convective(star) -> bool:
+    """A star with a convective envelope for the braking law: 0.1–1.3 M☉ and not a white dwarf.
+
+    (The mass range and the white-dwarf radius cut, R < 0.05 R☉, are from
+    memory; a star outside them is only left out of the law's prediction.)
+    """
+    mass = star.mass.to_value(u.Msun)
+    radius = star.radius.to_value(u.Rsun) if star.radius is not None else 1.0
+    return 0.1 <= mass <= 1.3 and radius >= 0.05
+
+
 def _rv_margin(semi_amplitude, period, limits) -> float:
     """The RV change over the baseline in units of what the RVs would show (> 1: seen; NaN: no limits)."""
     _, change, threshold = rv_visibility(semi_amplitude, period, limits)
@@ -420,6 +582,8 @@ def _rv_margin(semi_amplitude, period, limits) -> float:
 
 #: The checks of each Term class; a Term with no entry (a constant period) has none.
 CHECKS = {
+    MassTransfer: mass_transfer_checks,
+    MagneticBraking: magnetic_braking_checks,
     OrbitalDecay: decay_checks,
     ApsidalPrecession: precession_checks,
     SinusoidalModulation: modulation_checks,

@@ -34,7 +34,7 @@ from ttvkit.diagnosis.verdicts import (
     statistical_standing,
 )
 from ttvkit.errors import InputError, MissingValueError
-from ttvkit.hypotheses import DEFAULT_COMPARISON, TimingData, get_hypothesis
+from ttvkit.hypotheses import BINARY_HYPOTHESES, DEFAULT_COMPARISON, TimingData, get_hypothesis
 from ttvkit.hypotheses.base import HostContext
 from ttvkit.inference.fitting import compare
 from ttvkit.inference.periodogram import Periodogram, residual_periodogram
@@ -278,6 +278,9 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
                          f"not {type(system).__name__}")
     options = replace(options or DiagnosisOptions(), **changes)
     hypotheses = list(options.hypotheses)
+    if getattr(system, "is_binary", False) and tuple(options.hypotheses) == DEFAULT_COMPARISON:
+        # both stars described: the binaries' own readings of a steady period change
+        hypotheses += [h for h in BINARY_HYPOTHESES if h not in hypotheses]
     if "constant-period" not in hypotheses:  # the reference of every O−C
         hypotheses.insert(0, "constant-period")
     notes = [{"kind": "table", "message": m} for m in getattr(table, "intake_warnings", [])]

@@ -5,6 +5,8 @@ from __future__ import annotations
 from ttvkit.hypotheses import (
     ApsidalPrecession,
     LightTravelTime,
+    MagneticBraking,
+    MassTransfer,
     NBodyPerturber,
     NearResonantPerturber,
     OrbitalDecay,
@@ -15,6 +17,21 @@ __all__ = ["PHYSICAL_MODELS"]
 
 #: The physical model behind each Term's checks: (title, assumptions), as the report states them.
 PHYSICAL_MODELS = {
+    MassTransfer: (
+        "Mass transfer between the stars (conservative; e.g. Hilditch 2001, An Introduction to Close "
+        "Binary Stars, CUP)",
+        "Point masses on a circular orbit exchange mass at a constant rate with no loss of mass or angular "
+        "momentum, so Ṗ/P = 3 Ṁ (1/M_donor − 1/M_accretor): the period grows when the lighter star gives "
+        "mass. The donor must fill its Roche lobe (Eggleton 1983, ApJ 268, 368, volume-equivalent radius); "
+        "a rate above the donor's thermal-timescale rate M/τ_KH is a tension (a short-lived phase), not an "
+        "exclusion."),
+    MagneticBraking: (
+        "Magnetic braking (Rappaport, Verbunt & Joss 1983, ApJ 275, 713)",
+        "A convective star spun in step with the orbit loses angular momentum in a magnetised wind at "
+        "J̇ ∝ M R^γ ω³ (γ = 0–4); the tides take it from the orbit, so the period only shrinks. Point masses "
+        "on a circular orbit; the stars' spins counted with their polytropes' moments of inertia. The law's "
+        "calibration is uncertain by about an order of magnitude (from memory): a rate more than 10× "
+        "outside its range is a tension, never an exclusion."),
     NBodyPerturber: (
         "Perturbing planet (N-body fit)",
         "The transiting planet and one more planet of fitted mass, period, eccentricity vector and mean "

@@ -9,6 +9,9 @@
 * ``near-resonant-perturber``: adds a sinusoid at the super-period
   (Lithwick, Xie & Wu 2012); ``near-resonant-perturber(j=3)`` for other
   resonances;
+* ``mass-transfer`` and ``magnetic-braking`` (eclipsing binaries with both
+  stars described): the decay parabola read as conservative transfer or as
+  wind braking;
 * ``n-body-perturber``: a second planet of any mass, period, eccentricity
   and phase, by direct N-body integration (slow: not in the default
   comparison).
@@ -34,6 +37,7 @@ from ttvkit.hypotheses.base import (
     Term,
     TimingData,
 )
+from ttvkit.hypotheses.binary_period import BINARY_HYPOTHESES, MagneticBraking, MassTransfer
 from ttvkit.hypotheses.ephemerides import ConstantPeriod, OrbitalDecay
 from ttvkit.hypotheses.light_time import LightTravelTime
 from ttvkit.hypotheses.modulation import SinusoidalModulation
@@ -44,7 +48,7 @@ from ttvkit.hypotheses.resonance import NearResonantPerturber
 __all__ = ["Hypothesis", "Term", "Parameter", "Derived", "TimingData", "HostContext", "get_hypothesis",
            "HYPOTHESIS_NAMES", "DEFAULT_COMPARISON", "ConstantPeriod", "OrbitalDecay",
            "ApsidalPrecession", "SinusoidalModulation", "LightTravelTime", "NearResonantPerturber",
-           "NBodyPerturber", "SLOW_HYPOTHESES"]
+           "NBodyPerturber", "SLOW_HYPOTHESES", "MassTransfer", "MagneticBraking", "BINARY_HYPOTHESES"]
 
 #: The single hypotheses, in the order of the list above (each module's Term registers itself).
 _TERMS = {key: TERMS[key] for key in ("constant-period", "orbital-decay", "apsidal-precession",
@@ -58,8 +62,8 @@ HYPOTHESIS_NAMES = tuple(_TERMS)
 #: Hypotheses whose every evaluation is costly (``Term.expensive``: an N-body integration): fitted when asked.
 SLOW_HYPOTHESES = tuple(name for name, term in _TERMS.items() if term.expensive)
 
-#: What ``compare`` fits by default: every fast hypothesis and the sensible pairs.
-DEFAULT_COMPARISON = tuple(n for n in HYPOTHESIS_NAMES if n not in SLOW_HYPOTHESES) + (
+#: What ``compare`` fits by default: every fast hypothesis but the binary-only ones, and the sensible pairs.
+DEFAULT_COMPARISON = tuple(n for n in HYPOTHESIS_NAMES if n not in SLOW_HYPOTHESES + BINARY_HYPOTHESES) + (
     "orbital-decay+sinusoidal-modulation", "orbital-decay+light-travel-time")
 
 _RESONANCE = re.compile(r"^near-resonant-perturber(?:\((?P<args>[^)]*)\))?$")

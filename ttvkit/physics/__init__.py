@@ -13,10 +13,10 @@ from ttvkit.physics.applegate import (
                         thin_shell_budget,
 )
 from ttvkit.physics.structure import Polytrope, polytrope
-from ttvkit.physics.system import Companion, Orbit, RadialVelocityLimits, Star, System
+from ttvkit.physics.system import Companion, Orbit, OtherStar, RadialVelocityLimits, Star, System
 
 __all__ = [
-    "System", "Star", "Companion", "Orbit", "RadialVelocityLimits",
+    "System", "Star", "OtherStar", "Companion", "Orbit", "RadialVelocityLimits",
     "ActivityBudget", "thin_shell_budget", "finite_shell_budget", "activity_budgets",
     "activity_envelope", "period_change_from_amplitude",
     "Polytrope", "polytrope",

@@ -68,6 +68,7 @@ from ttvkit.physics.applegate import ActivityBudget, activity_budgets
 from ttvkit.physics.system import Companion, Star, System
 
 __all__ = ["orbital_angular_momentum", "period_change_from_transfer", "transfer_rate_from_period_change",
+           "roche_lobe_radius",
            "thermal_timescale", "thermal_transfer_rate", "braking_torque", "period_change_from_braking",
            "StarBudgets", "swapped_system", "applegate_for_each_star"]
 
@@ -164,6 +165,33 @@ def transfer_rate_from_period_change(period_change, donor_mass, accretor_mass, p
         raise InputError("equal donor and accretor masses: conservative transfer leaves the period "
                          "unchanged to first order, so no rate follows from a period change")
     return (relative / factor).to(u.Msun / u.yr)
+
+
+def roche_lobe_radius(donor_mass, accretor_mass, separation) -> u.Quantity:
+    """Volume-equivalent radius of the donor's Roche lobe (Eggleton 1983, ApJ 268, 368).
+
+    r_L / a = 0.49 q^{2/3} / (0.6 q^{2/3} + ln(1 + q^{1/3})), q = M_d / M_a,
+    good to about 1% for every q (Eggleton's stated accuracy; the formula is
+    from memory; tests/physics/test_binaries.py checks it against its limits,
+    r_L/a = 0.3789 at q = 1 and ≈ 0.49 q^{1/3} for q ≪ 1, the q^{1/3}
+    scaling of the Hill radius).
+
+    Parameters
+    ----------
+    donor_mass, accretor_mass : Quantity
+        Masses (M☉ if floats).
+    separation : Quantity
+        Orbital separation a (AU if a float).
+
+    Returns
+    -------
+    Quantity
+        The lobe radius in R☉.
+    """
+    q = float((_mass(donor_mass, "donor_mass") / _mass(accretor_mass, "accretor_mass")).decompose())
+    a = u.Quantity(separation, u.AU)
+    q23, q13 = q ** (2 / 3), q ** (1 / 3)
+    return (0.49 * q23 / (0.6 * q23 + np.log1p(q13)) * a).to(u.Rsun)
 
 
 def thermal_timescale(star: Star) -> u.Quantity:

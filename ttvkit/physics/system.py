@@ -30,7 +30,7 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover
     import tomli as tomllib
 
-__all__ = ["Star", "Companion", "Orbit", "RadialVelocityLimits", "System"]
+__all__ = ["Star", "OtherStar", "Companion", "Orbit", "RadialVelocityLimits", "System"]
 
 # key -> (unit the value must convert to, or None for dimensionless), per table
 _SCHEMA = {
@@ -44,6 +44,10 @@ _SCHEMA = {
     "radial_velocity": {"baseline": u.yr, "residual_rms": u.m / u.s, "jitter": u.m / u.s,
                         "acceleration": u.m / u.s / u.day,
                         "acceleration_uncertainty": u.m / u.s / u.day},
+    # the other star of an eclipsing binary (optional): the same values as [star]
+    "other_star": {"mass": u.Msun, "radius": u.Rsun, "teff": u.K, "luminosity": u.Lsun,
+                   "rotation_period": u.day, "activity_cycle": u.yr, "variability_amplitude": None,
+                   "polytropic_index": None},
 }
 
 
@@ -115,6 +119,18 @@ class Star(_Section):
 
 
 @dataclass
+class OtherStar(Star):
+    """The other star of an eclipsing binary (the ``[other_star]`` table): the same values as :class:`Star`.
+
+    With it, the Applegate budget runs with each star as the active one, and
+    the mass-transfer and magnetic-braking hypotheses have both stars.  Its
+    mass and radius are the companion's (``[companion]`` may then be left out).
+    """
+
+    SECTION: ClassVar[str] = "other_star"
+
+
+@dataclass
 class Companion(_Section):
     """The transiting planet, or the other star of an eclipsing binary."""
 
@@ -182,6 +198,13 @@ class System:
     name: str = "unnamed system"
     #: 1σ uncertainties of given values, keyed "section.key" (e.g. "star.mass"), same units as the values
     uncertainties: dict = field(default_factory=dict)
+    #: the other star of an eclipsing binary, in full (None for a planet or an unknown companion)
+    other_star: "OtherStar | None" = None
+
+    @property
+    def is_binary(self) -> bool:
+        """True when the system file describes both stars (an ``[other_star]`` table)."""
+        return self.other_star is not None
 
     def __post_init__(self):
         o, s = self.orbit, self.star
@@ -251,8 +274,14 @@ class System:
         for key in ("mass", "radius"):
             star.need(key, f"every physical check (system file {where})")
         _check_ranges(where, tables)
+        other = None
+        if "other_star" in data:
+            other = OtherStar(**tables["other_star"])
+            other._where = where
+            other.need("mass", f"a two-star system (system file {where})")
+            _companion_from_other_star(tables["companion"], other, errors, where)
         system = cls(star, Companion(**tables["companion"]), Orbit(**tables["orbit"]),
-                     RadialVelocityLimits(**tables["radial_velocity"]), str(name), errors)
+                     RadialVelocityLimits(**tables["radial_velocity"]), str(name), errors, other)
         for section in (system.star, system.companion, system.orbit, system.radial_velocity):
             section._where = where
         from ttvkit.physics.system_checks import check_consistency
@@ -266,8 +295,10 @@ class System:
     def to_dict(self) -> dict:
         """Plain-JSON form, each quantity as ``{"value", "unit"}``."""
         out = {"name": self.name}
-        for section in ("star", "companion", "orbit", "radial_velocity"):
+        for section in ("star", "companion", "orbit", "radial_velocity", "other_star"):
             obj = getattr(self, section)
+            if obj is None:
+                continue
             entry = {}
             for f in fields(obj):
                 v = getattr(obj, f.name)
@@ -277,6 +308,21 @@ class System:
                     entry[f.name] = v
             out[section] = entry
         return out
+
+
+def _companion_from_other_star(companion: dict, other: "OtherStar", errors: dict, where: str) -> None:
+    """Fill [companion] mass and radius (and their errors) from [other_star]; refuse two different values."""
+    for key in ("mass", "radius"):
+        value = getattr(other, key)
+        if value is None:
+            continue
+        given = companion.get(key)
+        if given is not None and not np.isclose(given.to_value(value.unit), value.value, rtol=1e-3):
+            raise InputError(f"{where}: [companion] {key} = {given} and [other_star] {key} = {value} "
+                             "describe the same star; give it once (in [other_star])")
+        companion[key] = value
+        if f"other_star.{key}" in errors and f"companion.{key}" not in errors:
+            errors[f"companion.{key}"] = errors[f"other_star.{key}"]
 
 
 _UNCERTAIN = re.compile(r"^\s*(?P<value>[-+0-9.eE]+)\s*(?:\+-|\+/-|±)\s*(?P<error>[0-9.eE+-]+)\s*(?P<unit>.*)$")
@@ -332,10 +378,11 @@ def _check_ranges(where, tables):
     positive = {"star": ["mass", "radius", "teff", "luminosity", "rotation_period", "activity_cycle"],
                 "companion": ["mass", "radius"],
                 "orbit": ["period", "semi_major_axis", "a_over_rstar"],
-                "radial_velocity": ["baseline", "residual_rms", "jitter"]}
+                "radial_velocity": ["baseline", "residual_rms", "jitter"],
+                "other_star": ["mass", "radius", "teff", "luminosity", "rotation_period", "activity_cycle"]}
     for section, keys in positive.items():
         for key in keys:
-            v = tables[section].get(key)
+            v = tables.get(section, {}).get(key)
             if v is not None and not (float(getattr(v, "value", v)) > 0):
                 raise InputError(f"{where}: [{section}] {key} must be positive")
     index = tables["star"].get("polytropic_index")

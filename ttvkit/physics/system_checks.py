@@ -57,7 +57,8 @@ def check_consistency(system, where: str, radius_text=None) -> None:
     if a_rs * (1 - e) <= 1:
         raise InputError(f"{where}: the orbit lies inside the star (periastron {a_rs * (1 - e):.3g} stellar "
                          "radii); check [orbit] and [star] radius")
-    if comp.mass is not None and comp.radius is not None and star.mass is not None:
+    if comp.mass is not None and comp.radius is not None and star.mass is not None \
+            and getattr(system, "other_star", None) is None:       # a planet's Roche limit, not a star's
         roche = _ROCHE * float((comp.radius / orbit.semi_major_axis).decompose()) \
             * float((star.mass / comp.mass).decompose()) ** (1 / 3)
         if roche > 1:

@@ -50,7 +50,9 @@ def system_draws(system: System, count: int = 200, seed=0) -> list[System]:
     out = []
     for _ in range(count):
         sections = {}
-        for name in ("star", "companion", "orbit", "radial_velocity"):
+        for name in ("star", "companion", "orbit", "radial_velocity", "other_star"):
+            if getattr(system, name, None) is None:
+                continue
             obj = copy.copy(getattr(system, name))
             for key in getattr(obj, "derived_fields", ()):
                 setattr(obj, key, None)      # derived again from the drawn inputs
@@ -61,8 +63,15 @@ def system_draws(system: System, count: int = 200, seed=0) -> list[System]:
             setattr(obj, field, _draw(getattr(obj, field), error, rng))
         star = sections["star"]
         star.__post_init__()
+        other = sections.get("other_star")
+        if other is not None:
+            other.__post_init__()
+            # the companion is the other star: one draw for both
+            for key in ("mass", "radius"):
+                if f"other_star.{key}" in system.uncertainties:
+                    setattr(sections["companion"], key, getattr(other, key))
         out.append(System(star, sections["companion"], sections["orbit"], sections["radial_velocity"],
-                          system.name, {}))
+                          system.name, {}, other))
     return out
 
 

@@ -1,0 +1,174 @@
+"""Eclipsing binaries: the two-star system file, mass transfer and magnetic braking as hypotheses, and the
+Applegate budget of each star in the verdict.
+
+Published inputs: NN Ser (Parsons et al. 2010, MNRAS 402, 2591, abstract: M_sec = 0.111 M☉,
+R_sec = 0.149 R☉, M_WD = 0.535 M☉, R_WD = 0.0211 R☉, a = 0.934 R☉; a detached binary);
+T_sec = 2950 K (from memory), T_WD = 57000 K and P = 0.13008 d (as in tests/physics/test_binaries.py).
+"""
+
+import warnings
+
+import astropy.units as u
+import numpy as np
+import pytest
+
+from ttvkit import TimingTable
+from ttvkit.errors import InputError
+from ttvkit.hypotheses import DEFAULT_COMPARISON, TimingData, get_hypothesis
+from ttvkit.inference.fitting import fit
+from ttvkit.physics import System
+from ttvkit.physics.binaries import roche_lobe_radius, transfer_rate_from_period_change
+from ttvkit.physics.uncertain import system_draws
+
+NN_SER = """
+name = "NN Ser (Parsons et al. 2010)"
+[star]
+mass = "0.111 +- 0.004 Msun"
+radius = "0.149 +- 0.002 Rsun"
+teff = "2950 K"
+[other_star]
+mass = "0.535 +- 0.012 Msun"
+radius = "0.0211 +- 0.0002 Rsun"
+teff = "57000 K"
+[orbit]
+period = "0.13008 d"
+semi_major_axis = "0.934 Rsun"
+"""
+PERIOD = 0.13008
+
+
+@pytest.fixture(scope="module")
+def nn_ser(tmp_path_factory):
+    path = tmp_path_factory.mktemp("eb") / "nn_ser.toml"
+    path.write_text(NN_SER)
+    return System.from_toml(path)
+
+
+def parabola(pdot, seed=1, n=150, span=30000, sigma_s=5.0):
+    """Primary eclipses whose period changes at Ṗ = ``pdot`` (s/s), 5-s errors (fixed seed)."""
+    rng = np.random.default_rng(seed)
+    epochs = np.sort(rng.choice(np.arange(span), n, replace=False)).astype(float)
+    sigma = np.full(n, sigma_s / 86400)
+    times = 2455000 + PERIOD * epochs + 0.5 * pdot * PERIOD * epochs ** 2 + rng.normal(0, sigma)
+    return TimingTable(times, sigma, epoch=epochs.astype(int), kind="primary", source="simulated")
+
+
+def test_other_star_table_fills_the_companion_and_is_drawn_with_it(nn_ser, tmp_path):
+    assert nn_ser.is_binary
+    assert nn_ser.companion.mass.to_value(u.Msun) == pytest.approx(0.535)
+    assert nn_ser.companion.radius.to_value(u.Rsun) == pytest.approx(0.0211)
+    assert nn_ser.other_star.luminosity is not None          # from R and T_eff
+    for draw in system_draws(nn_ser, 20, seed=3):
+        assert draw.other_star.mass == draw.companion.mass   # one star, one draw
+    # one star described twice with different masses: refused, naming both tables
+    bad = tmp_path / "bad.toml"
+    bad.write_text(NN_SER.replace('[orbit]', '[companion]\nmass = "0.6 Msun"\n[orbit]'))
+    with pytest.raises(InputError, match=r"bad.toml.*\[companion\] mass.*\[other_star\] mass"):
+        System.from_toml(bad)
+    # the other star's own values are checked like the star's
+    neg = tmp_path / "neg.toml"
+    neg.write_text(NN_SER.replace('teff = "57000 K"', 'teff = "-57000 K"'))
+    with pytest.raises(InputError, match=r"neg.toml: \[other_star\] teff must be positive"):
+        System.from_toml(neg)
+    # a planet's Roche-limit warning is not raised for two stars
+    good = tmp_path / "good.toml"
+    good.write_text(NN_SER)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        System.from_toml(good)
+
+
+def test_roche_lobe_limits():
+    # Eggleton 1983 (ApJ 268, 368; formula from memory): r_L/a = 0.3789 for equal masses
+    # (0.49 / (0.6 + ln 2)); for q << 1 it tends to 0.49 q^(1/3) (to 1% at q = 1e-6).
+    assert roche_lobe_radius(1.0, 1.0, 1 * u.Rsun).to_value(u.Rsun) == pytest.approx(0.49 / (0.6 + np.log(2)),
+                                                                                       rel=1e-12)
+    assert roche_lobe_radius(1.0, 1.0, 1 * u.Rsun).to_value(u.Rsun) == pytest.approx(0.3789, abs=1e-4)
+    q = 1e-6
+    assert roche_lobe_radius(q, 1.0, 1 * u.Rsun).to_value(u.Rsun) == pytest.approx(0.49 * q ** (1 / 3), rel=0.01)
+
+
+def test_transfer_rate_is_derived_with_its_sign_spelled_out(nn_ser):
+    # Derived rate = the physics module's inverse (Ṗ/P = 3 Ṁ (1/M_d − 1/M_a), hand-checked in
+    # tests/physics/test_binaries.py) with the lighter star as donor; the other sign is transfer the
+    # other way.  The fit recovers the injected Ṗ, so the rate follows from it within its error.
+    from ttvkit.hypotheses import HostContext
+
+    for sign in (+1, -1):
+        table = parabola(sign * 2e-11)
+        result = fit(table, "mass-transfer", context=HostContext.from_system(nn_ser))
+        rate = result.estimate("transfer_rate")
+        pdot = (sign * 2e-11 * u.s / u.s).to(u.s / u.yr)
+        expected = transfer_rate_from_period_change(pdot, 0.111, 0.535, period=PERIOD * u.day)
+        assert np.sign(rate.value) == sign
+        # 3σ of the fitted rate (the injected Ṗ is recovered within its error)
+        assert rate.value == pytest.approx(expected.to_value(u.Msun / u.yr), abs=3 * max(rate.lower, rate.upper))
+        jdot = fit(table, "magnetic-braking", context=HostContext.from_system(nn_ser)).estimate(
+            "angular_momentum_loss")
+        assert np.sign(jdot.value) == sign
+
+
+def test_binary_hypotheses_only_join_a_binary_diagnosis():
+    assert "mass-transfer" not in DEFAULT_COMPARISON and "magnetic-braking" not in DEFAULT_COMPARISON
+    # same parabola as orbital decay: identical fits, the physics tells them apart
+    data = TimingData(np.arange(5.0), np.zeros(5), np.zeros(5, bool), np.zeros(5), np.ones(5), 0.0, 1.0)
+    theta = np.array([0.0, 1.0, 1e-6])
+    decay = get_hypothesis("orbital-decay").predict(theta, data)
+    for name in ("mass-transfer", "magnetic-braking"):
+        np.testing.assert_array_equal(get_hypothesis(name).predict(theta, data), decay)
+
+
+@pytest.fixture(scope="module")
+def growing(nn_ser):
+    from ttvkit.diagnosis.diagnose import diagnose
+
+    return diagnose(parabola(+2e-11), nn_ser, sampled=False, progress=False).to_dict()
+
+
+@pytest.fixture(scope="module")
+def shrinking(nn_ser):
+    from ttvkit.diagnosis.diagnose import diagnose
+
+    return diagnose(parabola(-2e-11), nn_ser, sampled=False, progress=False).to_dict()
+
+
+def _hyp(diag, name):
+    return next(h for h in diag["hypotheses"] if h["name"] == name)
+
+
+def _check(hyp, name):
+    return next(c for c in hyp["physical"]["checks"] if c["name"] == name)
+
+
+def test_nn_ser_mass_transfer_is_excluded_both_ways(growing, shrinking):
+    # NN Ser is detached (Parsons et al. 2010): the M dwarf fills ~0.63 of its Roche lobe
+    # (Eggleton 1983 at q = 0.207: r_L = 0.254 a = 0.237 R☉ against R = 0.149 R☉), the white
+    # dwarf ~0.04 of its.  A growing period names the lighter star (M dwarf) as donor, a
+    # shrinking one the heavier (white dwarf): neither overflows its lobe, so both are excluded.
+    for diag, donor, fill in ((growing, "primary", 0.63), (shrinking, "other star", 0.044)):
+        hyp = _hyp(diag, "mass-transfer")
+        assert hyp["verdict"] == "physically excluded"
+        check = _check(hyp, "donor fills its Roche lobe")
+        assert check["outcome"] == "fail" and donor in check["reason"]
+        assert check["value"] == pytest.approx(fill, rel=0.05)
+
+
+def test_magnetic_braking_needs_a_shrinking_period(growing, shrinking):
+    # Braking only takes angular momentum away (Rappaport, Verbunt & Joss 1983): excluded for a
+    # growing period; for a shrinking one of 0.6 ms/yr it stands, inside the law's γ = 0–4 range
+    # for the M dwarf (the white dwarf has no convective envelope and is left out).
+    assert _hyp(growing, "magnetic-braking")["verdict"] == "physically excluded"
+    hyp = _hyp(shrinking, "magnetic-braking")
+    assert hyp["verdict"] == "needed and plausible"
+    law = _check(hyp, "braking law (Rappaport, Verbunt & Joss 1983)")
+    assert law["outcome"] == "pass" and "convective star " in law["reason"]
+
+
+def test_modulation_budget_names_each_star(growing):
+    # Both stars' budgets are reported; the white dwarf needs > 1e4 times its output (as in
+    # tests/physics/test_binaries.py) and the M dwarf is the lenient one.
+    hyp = _hyp(growing, "sinusoidal-modulation")
+    names = [c["name"] for c in hyp["physical"]["checks"]]
+    assert "energy ratio (other star ([other_star]), thin shell)" in names
+    assert _check(hyp, "energy ratio (other star ([other_star]), thin shell)")["value"] > 1e4
+    assert "primary star" in _check(hyp, "activity energy budget")["reason"]

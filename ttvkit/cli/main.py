@@ -14,13 +14,13 @@ import textwrap
 import warnings
 
 from ttvkit._version import __version__
-from ttvkit.cli import budget, calibrate, demo, diagnose, fitting, measure, perturbers, survey, tables
+from ttvkit.cli import budget, calibrate, demo, diagnose, fitting, measure, perturbers, planets, survey, tables
 from ttvkit.errors import TtvkitError, TtvkitWarning
 
 __all__ = ["main", "build_parser"]
 
 #: The sub-command modules, in the order ``ttvkit --help`` lists them.
-COMMANDS = (tables, demo, budget, measure, fitting, diagnose, calibrate, perturbers, survey)
+COMMANDS = (tables, demo, budget, measure, fitting, diagnose, calibrate, perturbers, planets, survey)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -55,7 +55,7 @@ from pathlib import Path
 import astropy.units as u
 import numpy as np
 
-from ttvkit.errors import InputError, TimeStandardError, TtvkitWarning, located
+from ttvkit.errors import EphemerisError, InputError, TimeStandardError, TtvkitWarning, located
 from ttvkit.io.readers import RawTable, read_raw_table
 from ttvkit.physics.nbody import orbits_overlap
 from ttvkit.timing.ephemeris import Ephemeris
@@ -603,6 +603,15 @@ def _timing_table(raw: RawTable, elements: StartingElements, name: str, options:
     # given epochs are checked against the planet's own times (their zero may be anyone's); missing
     # ones are numbered from the planet's starting (t0, P)
     ephemeris = None if has_epochs else elements.ephemeris(name)
-    return build_table(TimingTable, raw, options["standard"], options["target"], options["observer"],
-                       ephemeris, options["columns"], options["units"], source=Path(raw.path).name,
-                       bare_bjd=options["bare_bjd"])
+    try:
+        return build_table(TimingTable, raw, options["standard"], options["target"], options["observer"],
+                           ephemeris, options["columns"], options["units"], source=Path(raw.path).name,
+                           bare_bjd=options["bare_bjd"])
+    except EphemerisError as exc:
+        if has_epochs:
+            raise
+        # the table reader's hint names an option this path does not have; say where the numbering came from
+        lines = str(exc).replace("; correct it or leave it out with --drop-rows", "").splitlines()
+        lines[0] += (f" [planet {name}: rows without an epoch are numbered from its starting t0 and period in "
+                     f"{elements.source}; correct the row, give better starting elements or an 'epoch' column]")
+        raise EphemerisError("\n".join(lines)) from None

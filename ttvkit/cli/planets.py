@@ -238,7 +238,8 @@ def _chain_note(result, walkers) -> str | None:
     tau = float(np.max(emcee.autocorr.integrated_time(kept, tol=0))) if kept.shape[0] > 1 else float("nan")
     if not kept.shape[0] >= 50 * tau:
         return (f"the kept chain ({kept.shape[0]} steps) is shorter than 50 autocorrelation times "
-                f"(up to {tau:.0f} steps): the errors are rough; run longer with --steps")
+                f"(up to {tau:.0f} steps, itself uncertain): the walkers start close together at the fit, so "
+                "the errors may be too small; run longer with --steps")
     return None
 
 

@@ -54,6 +54,7 @@ from ttvkit.hypotheses import (
     NBodyPerturber,
     NearResonantPerturber,
     OrbitalDecay,
+    QuasiPeriodicModulation,
     SinusoidalModulation,
 )
 from ttvkit.physics import activity_budgets
@@ -552,13 +553,17 @@ def magnetic_braking_checks(fit, system, term=None) -> list[Check]:
         return out
     weakest = sum(min(abs(v[0.0]), abs(v[4.0])) for v in predicted.values())
     strongest = sum(max(abs(v[0.0]), abs(v[4.0])) for v in predicted.values())
+    text = (f"the law gives dP/dt = −{weakest:.3g} to −{strongest:.3g} ms/yr for the convective "
+            f"star{'s' if len(predicted) > 1 else ''} (γ = 0–4); fitted {est.value:+.3g} ms/yr")
+    if est.value >= 0:     # the sign check above judges a growing period; the law has nothing to add
+        out.append(Check("braking law (Rappaport, Verbunt & Joss 1983)", est.value, -strongest, "ms/yr", "note",
+                         text + ", the wrong sign for braking (see the sign check)", False))
+        return out
     inside = weakest / 10 <= abs(est.value) <= strongest * 10
     out.append(Check("braking law (Rappaport, Verbunt & Joss 1983)", est.value, -strongest, "ms/yr",
                      "pass" if inside else "tension",
-                     f"the law gives dP/dt = −{weakest:.3g} to −{strongest:.3g} ms/yr for the convective "
-                     f"star{'s' if len(predicted) > 1 else ''} (γ = 0–4); fitted {est.value:+.3g} ms/yr"
-                     + ("" if inside else ", more than 10× outside that range (the law's calibration is "
-                        "uncertain by about an order of magnitude, from memory: a tension, not an exclusion)"),
+                     text + ("" if inside else ", more than 10× outside that range (the law's calibration is "
+                             "uncertain by about an order of magnitude, from memory: a tension, not an exclusion)"),
                      decisive=True))
     return out
 
@@ -587,6 +592,7 @@ CHECKS = {
     OrbitalDecay: decay_checks,
     ApsidalPrecession: precession_checks,
     SinusoidalModulation: modulation_checks,
+    QuasiPeriodicModulation: modulation_checks,
     LightTravelTime: light_time_checks,
     NearResonantPerturber: resonance_checks,
     NBodyPerturber: nbody_perturber_checks,

@@ -35,7 +35,12 @@ def figure_curves(diagnosis) -> dict:
            "point_oc_s": ref.residuals() * DAY_S, "point_sigma_s": table.uncertainty * DAY_S}
     lead = (diagnosis.standing or diagnosis.assessments)[0]
     out["lead"] = lead.name
-    out["point_residual_s"] = lead.fit.residuals() * DAY_S
+    residuals = lead.fit.residuals()
+    if lead.fit.hypothesis.has_process:   # less the process's conditional mean: what no hypothesis explains
+        from ttvkit.inference.predictions import process_prediction
+
+        residuals = residuals - process_prediction(lead.fit, lead.fit.data.time)[0]
+    out["point_residual_s"] = residuals * DAY_S
     grid = np.linspace(table.epoch.min(), table.epoch.max(), 600)
     gdata = data.at_epochs(grid)
     ref_line = ref.hypothesis.predict(ref.model_theta(), gdata)

@@ -34,7 +34,7 @@ from ttvkit.diagnosis.verdicts import (
     statistical_standing,
 )
 from ttvkit.errors import InputError, MissingValueError
-from ttvkit.hypotheses import BINARY_HYPOTHESES, DEFAULT_COMPARISON, TimingData, get_hypothesis
+from ttvkit.hypotheses import BINARY_ADDITIONS, DEFAULT_COMPARISON, TimingData, get_hypothesis
 from ttvkit.hypotheses.base import HostContext
 from ttvkit.inference.fitting import compare
 from ttvkit.inference.periodogram import Periodogram, residual_periodogram
@@ -94,6 +94,7 @@ class Diagnosis:
     settings: dict = field(default_factory=dict)
     perturbers: object = None   # a PerturberMap when asked for
     calibration: object = None  # a Calibration of the verdict on this table's design, when asked for
+    activity: list = field(default_factory=list)   # IndicatorResult per activity-indicator series given
 
     @property
     def standing(self) -> list:
@@ -149,6 +150,7 @@ class Diagnosis:
             "settings": self.settings,
             "perturber_map": self.perturbers.to_dict() if self.perturbers is not None else None,
             "calibration": self.calibration.to_dict() if self.calibration is not None else None,
+            "activity_indicators": [r.to_dict() for r in self.activity],
         }
 
 
@@ -161,9 +163,20 @@ def timing_context(system) -> HostContext:
     return HostContext.from_system(system)
 
 
-def _assess(fit, comparison, system) -> Assessment:
+def _is_activity(fit) -> bool:
+    """True for a hypothesis with an activity-cycle term (a sinusoidal or quasi-periodic modulation)."""
+    from ttvkit.hypotheses import QuasiPeriodicModulation, SinusoidalModulation
+
+    return any(isinstance(t, (SinusoidalModulation, QuasiPeriodicModulation)) for t in fit.hypothesis.terms)
+
+
+def _assess(fit, comparison, system, indicators=()) -> Assessment:
     delta_bic = comparison.delta_bic(fit)
     checks = checks_for(fit, system)
+    if indicators and _is_activity(fit):
+        from ttvkit.diagnosis.activity import indicator_check
+
+        checks += [indicator_check(r, fit) for r in indicators]
     decisive = [c for c in checks if c.decisive]
     fails = [c for c in decisive if c.outcome == "fail"]
     physical = ("excluded" if fails else "in tension" if any(c.outcome == "tension" for c in decisive)
@@ -215,6 +228,12 @@ class DiagnosisOptions:
         short chain is reported as a convergence note).  Measured on the
         demo (21 years of a 1.87-d planet): 0.7-1.8 s per step on two cores
         (the longer near a resonance, where the step is shorter).
+    excess_noise : bool
+        Add a jitter when χ² is too large (:mod:`ttvkit.inference.excess_noise`).
+    activity : tuple of IndicatorSeries
+        Activity indicators (:func:`ttvkit.timing.indicators.read_indicator_series`)
+        to test against the period change; each adds a check to every
+        activity hypothesis (:mod:`ttvkit.diagnosis.activity`).
     """
 
     hypotheses: tuple = DEFAULT_COMPARISON
@@ -231,6 +250,7 @@ class DiagnosisOptions:
     fit_perturber: bool = False
     perturber_steps: int = 500
     excess_noise: bool = True  # add a jitter when chi2 is too large (ttvkit.inference.excess_noise)
+    activity: tuple = ()       # IndicatorSeries: activity indicators to test against the period change
 
     def __post_init__(self):
         if self.n_steps < 1 or self.perturber_steps < 1:
@@ -243,7 +263,8 @@ class DiagnosisOptions:
         return {"sampled": self.sampled, "n_steps": self.n_steps, "max_steps": self.max_steps, "seed": self.seed,
                 "forecast_years": self.forecast_years,
                 "likelihood": (self.likelihood.describe() if self.likelihood else "Gaussian"),
-                "fit_perturber": bool(self.fit_perturber), "perturber_steps": int(self.perturber_steps)}
+                "fit_perturber": bool(self.fit_perturber), "perturber_steps": int(self.perturber_steps),
+                "activity_indicators": [a.name for a in self.activity]}
 
 
 def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor=None,
@@ -279,8 +300,8 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
     options = replace(options or DiagnosisOptions(), **changes)
     hypotheses = list(options.hypotheses)
     if getattr(system, "is_binary", False) and tuple(options.hypotheses) == DEFAULT_COMPARISON:
-        # both stars described: the binaries' own readings of a steady period change
-        hypotheses += [h for h in BINARY_HYPOTHESES if h not in hypotheses]
+        # both stars described: the binaries' own readings of a period change, and a wandering cycle
+        hypotheses += [h for h in BINARY_ADDITIONS if h not in hypotheses]
     if "constant-period" not in hypotheses:  # the reference of every O−C
         hypotheses.insert(0, "constant-period")
     notes = [{"kind": "table", "message": m} for m in getattr(table, "intake_warnings", [])]
@@ -315,7 +336,12 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
 
         notes += [{"kind": "leverage", "message": lev.message()} for lev in
                   find_leverage(comparison.best, table, context=HostContext.from_system(system))]
-    assessments = [_assess(f, comparison, system) for f in comparison.fits]
+    indicators = []
+    if options.activity:
+        from ttvkit.diagnosis.activity import link_indicators
+
+        indicators = link_indicators(table, ref, options.activity, seed=options.seed)
+    assessments = [_assess(f, comparison, system, indicators) for f in comparison.fits]
     standing = [a.fit for a in assessments if a.stands]
     duration = None
     try:
@@ -332,7 +358,7 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
             f"the periodogram's highest peak ({periodogram.best_period / 365.25:.3g} yr) is longer than the "
             f"{periodogram.baseline / 365.25:.3g}-yr baseline: it marks a trend (curvature), not a measured period")})
     diagnosis = Diagnosis(table, system, assessments, periodogram, forecast, suspicions, notes,
-                          settings=options.describe())
+                          settings=options.describe(), activity=indicators)
     if pmap is not None:
         diagnosis.perturbers = pmap
         diagnosis.settings["perturber_map"] = options.perturber_map.describe()

@@ -10,6 +10,7 @@ from ttvkit.hypotheses import (
     NBodyPerturber,
     NearResonantPerturber,
     OrbitalDecay,
+    QuasiPeriodicModulation,
     SinusoidalModulation,
 )
 
@@ -51,6 +52,12 @@ PHYSICAL_MODELS = {
         "otherwise. Thin shell: 0.1 M at the surface. Finite shell (in the manner of Völschow et al. "
         "2016): a Lane–Emden polytrope (n = 1.5 below 0.5 M☉, else 3) with the energy minimised over the "
         "shell thickness."),
+    QuasiPeriodicModulation: (
+        "Activity cycle that wanders (Applegate 1992, with a Gaussian-process O−C)",
+        "The same Applegate budget as for a sinusoid, read at the Gaussian process's equivalent "
+        "semi-amplitude √2 σ and its characteristic period (both with their posteriors): a cycle whose "
+        "length and strength wander, modelled as a stochastically driven damped oscillator (celerite2's SHO "
+        "covariance); stationary over the baseline."),
     OrbitalDecay: (
         "Tidal decay (Goldreich & Soter 1966; Patra et al. 2017)",
         "Constant-phase-lag tide raised on the star by a planet on a circular orbit; Q'_* constant; the "

@@ -12,6 +12,8 @@
 * ``mass-transfer`` and ``magnetic-braking`` (eclipsing binaries with both
   stars described): the decay parabola read as conservative transfer or as
   wind braking;
+* ``quasi-periodic-modulation``: a Gaussian-process O−C with a
+  characteristic period and a coherence time (a cycle that wanders);
 * ``n-body-perturber``: a second planet of any mass, period, eccentricity
   and phase, by direct N-body integration (slow: not in the default
   comparison).
@@ -43,12 +45,14 @@ from ttvkit.hypotheses.light_time import LightTravelTime
 from ttvkit.hypotheses.modulation import SinusoidalModulation
 from ttvkit.hypotheses.nbody_perturber import NBodyPerturber
 from ttvkit.hypotheses.precession import ApsidalPrecession
+from ttvkit.hypotheses.quasi_periodic import QuasiPeriodicModulation
 from ttvkit.hypotheses.resonance import NearResonantPerturber
 
 __all__ = ["Hypothesis", "Term", "Parameter", "Derived", "TimingData", "HostContext", "get_hypothesis",
            "HYPOTHESIS_NAMES", "DEFAULT_COMPARISON", "ConstantPeriod", "OrbitalDecay",
            "ApsidalPrecession", "SinusoidalModulation", "LightTravelTime", "NearResonantPerturber",
-           "NBodyPerturber", "SLOW_HYPOTHESES", "MassTransfer", "MagneticBraking", "BINARY_HYPOTHESES"]
+           "NBodyPerturber", "SLOW_HYPOTHESES", "MassTransfer", "MagneticBraking", "BINARY_HYPOTHESES",
+           "QuasiPeriodicModulation", "BINARY_ADDITIONS"]
 
 #: The single hypotheses, in the order of the list above (each module's Term registers itself).
 _TERMS = {key: TERMS[key] for key in ("constant-period", "orbital-decay", "apsidal-precession",
@@ -62,8 +66,13 @@ HYPOTHESIS_NAMES = tuple(_TERMS)
 #: Hypotheses whose every evaluation is costly (``Term.expensive``: an N-body integration): fitted when asked.
 SLOW_HYPOTHESES = tuple(name for name, term in _TERMS.items() if term.expensive)
 
-#: What ``compare`` fits by default: every fast hypothesis but the binary-only ones, and the sensible pairs.
-DEFAULT_COMPARISON = tuple(n for n in HYPOTHESIS_NAMES if n not in SLOW_HYPOTHESES + BINARY_HYPOTHESES) + (
+#: What ``diagnose`` adds to the default comparison when the system file describes both stars of a binary:
+#: the binaries' readings of a steady period change, and the quasi-periodic modulation (fitted by name
+#: for a planet: ``--hypothesis quasi-periodic-modulation``).
+BINARY_ADDITIONS = BINARY_HYPOTHESES + ("quasi-periodic-modulation",)
+
+#: What ``compare`` fits by default: every fast hypothesis but :data:`BINARY_ADDITIONS`, and the sensible pairs.
+DEFAULT_COMPARISON = tuple(n for n in HYPOTHESIS_NAMES if n not in SLOW_HYPOTHESES + BINARY_ADDITIONS) + (
     "orbital-decay+sinusoidal-modulation", "orbital-decay+light-travel-time")
 
 _RESONANCE = re.compile(r"^near-resonant-perturber(?:\((?P<args>[^)]*)\))?$")

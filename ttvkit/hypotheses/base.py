@@ -312,6 +312,18 @@ class Hypothesis:
         return tuple(p for term, _ in self._slices for p in term.parameters())
 
     @property
+    def has_process(self) -> bool:
+        """True when a term is a Gaussian process (its modulation is in the likelihood, not in predict)."""
+        return any(getattr(t, "gaussian_process", False) for t, _ in self._slices)
+
+    def process(self, theta) -> tuple[float, float, float]:
+        """The Gaussian-process term's (σ, ρ, τ) in days at one parameter vector ``theta``."""
+        for term, p in self.split(np.asarray(theta, float)[:self.n_parameters]):
+            if getattr(term, "gaussian_process", False):
+                return term.process(p)
+        raise ValueError(f"{self.name} has no Gaussian-process term")
+
+    @property
     def expensive(self) -> bool:
         """True if any term is costly to evaluate (see :attr:`Term.expensive`)."""
         return any(t.expensive for t, _ in self._slices)

@@ -116,19 +116,46 @@ def fit(table, hypothesis="constant-period", likelihood: Likelihood | None = Non
     theta = best.x
     cov = _covariance_from_jacobian(best.jac)
     notes = []
-    if not like.is_least_squares:
+    if hyp.has_process:     # the least squares ignore the process: maximise its likelihood from each start
+        theta, cov = _maximise_process(hyp, data, like, theta, cov, lo, hi, max_starts)
+    elif not like.is_least_squares:
         theta, cov = _maximise(hyp, data, like, theta, cov, lo, hi)
     resid = data.time - hyp.predict(theta[:k], data)
     chi2 = float(np.sum((resid / data.sigma) ** 2))
-    log_l = float(_log_like(like, data, resid, theta[k:]))
+    log_l = float(_log_like(like, data, resid, theta[k:], hyp, theta[:k]))
     return FitResult(hyp, data, theta, cov, log_l, chi2, like, warnings=notes)
 
 
-def _log_like(like: Likelihood, data: TimingData, resid, extra):
-    """ln L of residuals (..., n) with the likelihood's own parameters ``extra`` (..., n_extra)."""
-    if not like.jitter:
-        return like(resid, data.sigma)
-    return like(resid, data.sigma, extra, like.group_index(data.source, data.n))
+def _log_like(like: Likelihood, data: TimingData, resid, extra, hyp: Hypothesis | None = None, theta=None):
+    """ln L of residuals (..., n) with the likelihood's own parameters ``extra`` (..., n_extra).
+
+    For a hypothesis with a Gaussian-process term (``hyp.has_process``) the
+    residuals are not independent: ln L is the process's marginal likelihood
+    with covariance K(σ, ρ, τ) + diag(each row's variance), row by row of
+    ``theta`` (celerite2's O(n) solve).
+    """
+    group = like.group_index(data.source, data.n) if like.jitter else None
+    if hyp is None or not hyp.has_process:
+        return like(resid, data.sigma) if not like.jitter else like(resid, data.sigma, extra, group)
+    if like.kind != "gaussian":
+        raise InputError(f"{hyp.name} needs a Gaussian likelihood: a Student-t likelihood with a Gaussian "
+                         "process has no closed form")
+    import celerite2
+    from celerite2 import terms
+
+    resid2, theta2 = np.atleast_2d(resid), np.atleast_2d(theta)
+    extra2 = np.atleast_2d(extra) if like.jitter else [None] * resid2.shape[0]
+    order = np.argsort(data.time, kind="stable")
+    out = np.empty(resid2.shape[0])
+    for i, (r, th, ex) in enumerate(zip(resid2, theta2, extra2)):
+        sigma, rho, tau = hyp.process(th)
+        try:
+            gp = celerite2.GaussianProcess(terms.SHOTerm(sigma=sigma, rho=rho, tau=tau))
+            gp.compute(data.time[order], diag=like.variance(data.sigma, ex, group)[order], quiet=True)
+            out[i] = gp.log_likelihood(r[order])
+        except Exception:                       # a singular covariance at an extreme point: reject it
+            out[i] = -np.inf
+    return out if np.ndim(resid) > 1 else out[0]
 
 
 def _least_squares(func, start, lo, hi, quick: bool, jac="2-point"):
@@ -178,7 +205,7 @@ def _maximise(hyp, data, like, theta, cov, lo, hi):
     def negative(z):
         x = x0 + z * scale
         r = data.time - hyp.predict(x[:k], data)
-        value = -_log_like(like, data, r, x[k:])
+        value = -_log_like(like, data, r, x[k:], hyp, x[:k])
         return float(value) if np.isfinite(value) else 1e300
 
     zb = [((a - b) / s, (c - b) / s) for a, b, c, s in zip(flo, x0, fhi, scale)]
@@ -189,6 +216,38 @@ def _maximise(hyp, data, like, theta, cov, lo, hi):
     x = np.clip(x, flo, fhi)
     hess = _hessian(lambda v: negative((v - x0) / scale), x, scale * 1e-2)
     return x, _inverse_hessian(hess, scale)
+
+
+def _maximise_process(hyp, data, like, theta, cov, lo, hi, max_starts):
+    """The maximum of a Gaussian-process hypothesis's likelihood over its starts.
+
+    The least squares fix the ephemeris (the process has no mean), then the
+    full likelihood is maximised from each start of the process's own
+    parameters (its candidate periods): the likelihood has one local
+    maximum per period it could lock onto.
+    """
+    k = hyp.n_parameters
+    best, best_value = None, -np.inf
+    ephemeris = len(hyp.ephemeris.parameters())
+    # the least squares do not see the process's parameters: give them a tenth of their range as scale
+    cov = np.array(cov, float)
+    cov[ephemeris:k, :] = 0.0
+    cov[:, ephemeris:k] = 0.0
+    cov[np.arange(ephemeris, k), np.arange(ephemeris, k)] = (0.1 * (hi[ephemeris:k] - lo[ephemeris:k])) ** 2
+    for start in hyp.starts(data, limit=max_starts):
+        x = np.array(theta, float)
+        x[ephemeris:k] = start[ephemeris:k]
+        try:
+            cand = _maximise(hyp, data, like, x, cov, lo, hi)
+        except (ValueError, np.linalg.LinAlgError):
+            continue
+        r = data.time - hyp.predict(cand[0][:k], data)
+        value = float(_log_like(like, data, r, cand[0][k:], hyp, cand[0][:k]))
+        if np.isfinite(value) and value > best_value:
+            best, best_value = cand, value
+    if best is None:
+        raise ConvergenceError(f"no starting point of {hyp.name} gave a finite likelihood")
+    return best
 
 
 def _inverse_hessian(hess: np.ndarray, scale: np.ndarray) -> np.ndarray:
@@ -281,7 +340,7 @@ def sample(result: FitResult, n_steps: int = 500, n_walkers: int | None = None, 
         if np.any(inside):
             t = theta[inside]
             r = data.time - hyp.predict(t[:, :k], data)
-            out[inside] = _log_like(like, data, r, t[:, k:]) + _log_jitter_prior(like, t[:, k:])
+            out[inside] = _log_like(like, data, r, t[:, k:], hyp, t[:, :k]) + _log_jitter_prior(like, t[:, k:])
         out[~np.isfinite(out)] = -np.inf
         return out
 
@@ -320,7 +379,7 @@ def sample(result: FitResult, n_steps: int = 500, n_walkers: int | None = None, 
                    "acceptance_fraction": float(np.mean(sampler.acceptance_fraction)), "seed": int(seed)}
     resid = data.time - hyp.predict(theta[:k], data)
     return FitResult(hyp, data, theta, np.cov(samples.T).reshape(ndim, ndim),
-                     float(_log_like(like, data, resid, theta[k:])),
+                     float(_log_like(like, data, resid, theta[k:], hyp, theta[:k])),
                      float(np.sum((resid / data.sigma) ** 2)), like, samples, diagnostics, notes)
 
 

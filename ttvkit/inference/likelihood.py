@@ -109,16 +109,21 @@ class Likelihood:
                         for g in range(self.n_extra)])
         return np.log(1e-3 * med), np.log(1e2 * med)
 
-    def __call__(self, residuals: np.ndarray, sigma: np.ndarray, log_jitter=None, group=None) -> np.ndarray:
-        """ln L of ``residuals`` (shape (..., n)); ``log_jitter`` has shape (..., n_extra) or is a
-        scalar for a single group; ``group`` maps rows to jitter terms (all to the last by default)."""
-        var = sigma ** 2
+    def variance(self, sigma: np.ndarray, log_jitter=None, group=None) -> np.ndarray:
+        """Each row's variance σᵢ² (+ its group's jitter²), shape (..., n)."""
+        var = np.asarray(sigma, float) ** 2
         if self.jitter:
             lj = np.asarray(log_jitter, float)
             if self.n_extra == 1 and (lj.ndim == 0 or lj.shape[-1] != 1):
                 lj = lj[..., None]
             group = np.full(np.shape(sigma)[-1], self.n_extra - 1) if group is None else group
             var = var + np.exp(2 * lj)[..., group]
+        return var
+
+    def __call__(self, residuals: np.ndarray, sigma: np.ndarray, log_jitter=None, group=None) -> np.ndarray:
+        """ln L of ``residuals`` (shape (..., n)); ``log_jitter`` has shape (..., n_extra) or is a
+        scalar for a single group; ``group`` maps rows to jitter terms (all to the last by default)."""
+        var = self.variance(sigma, log_jitter, group)
         if self.kind == "gaussian":
             return -0.5 * np.sum(residuals ** 2 / var + np.log(2 * np.pi * var), axis=-1)
         nu = self.dof

@@ -16,7 +16,7 @@ from ttvkit.inference.results import FitResult
 from ttvkit.timing.ephemeris import KINDS
 from ttvkit.timing.standards import bjd_tdb_to_utc
 
-__all__ = ["Prediction", "predict_mid_times", "prediction_band"]
+__all__ = ["Prediction", "predict_mid_times", "prediction_band", "process_prediction"]
 
 
 @dataclass(frozen=True)
@@ -76,7 +76,39 @@ def prediction_band(result: FitResult, data, max_draws: int = 1500) -> tuple:
     lo, med, hi = np.percentile(times, [15.865, 50.0, 84.135], axis=0)
     if result.samples is None:
         med = result.hypothesis.predict(result.model_theta(), data)
+    if result.hypothesis.has_process:
+        mean, sd = process_prediction(result, med)
+        half = 0.5 * (hi - lo)
+        med = med + mean
+        spread = np.sqrt(half ** 2 + sd ** 2)
+        lo, hi = med - spread, med + spread
     return med, lo, hi
+
+
+def process_prediction(result: FitResult, at) -> tuple[np.ndarray, np.ndarray]:
+    """The Gaussian-process modulation at times ``at`` (days from t_ref), conditioned on the fit's residuals.
+
+    Its conditional mean and standard deviation at the best fit (celerite2's
+    O(n) prediction); far from the data the mean returns to 0 and the
+    spread to the process's σ.  The band adds it in quadrature to the
+    ephemeris's own spread.
+    """
+    import celerite2
+    from celerite2 import terms
+
+    hyp, data, like = result.hypothesis, result.data, result.likelihood
+    theta = result.theta
+    k = hyp.n_parameters
+    sigma, rho, tau = hyp.process(theta[:k])
+    group = like.group_index(data.source, data.n) if like.jitter else None
+    order = np.argsort(data.time, kind="stable")
+    resid = data.time - hyp.predict(theta[:k], data)
+    gp = celerite2.GaussianProcess(terms.SHOTerm(sigma=sigma, rho=rho, tau=tau))
+    gp.compute(data.time[order], diag=like.variance(data.sigma, theta[k:] if like.jitter else None, group)[order],
+               quiet=True)
+    at = np.asarray(at, float)
+    mean, var = gp.predict(resid[order], t=at, return_var=True)
+    return mean, np.sqrt(np.clip(var, 0.0, None))
 
 
 def predict_mid_times(result: FitResult, epochs, kind="transit", target=None,

@@ -14,6 +14,7 @@ examples:
   ttvkit diagnose times.ecsv --system star.toml --out quick --no-sample --json
   ttvkit diagnose times.ecsv --system star.toml --out d --calibrate 100   # how far to trust the verdict
   ttvkit diagnose times.ecsv --system star.toml --out d --light-curves lc1.csv lc2.csv --ephemeris T0,P
+  ttvkit diagnose eclipses.csv --system binary.toml --out d --activity brightness.csv   # an eclipsing binary
 
 Writes DIR/report.html (self-contained), the figures as PNG and PDF,
 DIR/diagnosis.json and DIR/timings_bjd_tdb.ecsv.  The verdict is a
@@ -63,6 +64,11 @@ def add_commands(sub) -> None:
                         "N tables without a signal and N at each of 5 injected decay rates (6N unsampled "
                         "comparisons of the diagnosis' hypotheses on every core: several minutes for N = 20; "
                         "N >= 10)")
+    p.add_argument("--activity", nargs="+", default=[], metavar="FILE[:COLUMN]",
+                   help="activity-indicator series (CSV/ECSV: a time column 'time' in BJD_TDB or 'year', a value "
+                        "column, its error column) to test against the period change; each adds a check to the "
+                        "activity hypotheses and a figure. Name the value column after a colon when the file "
+                        "has several")
     p.add_argument("--perturbers", action="store_true",
                    help="also map the perturbing planets the timing allows (N-body; minutes)")
     from ttvkit.cli.perturbers import add_map_options
@@ -96,8 +102,13 @@ def _cmd_diagnose(args) -> int:
     if args.precision is not None and not args.precision > 0:
         raise InputError(f"--precision {args.precision:g}: a timing precision must be positive (seconds)")
 
-    check_folder(args.out, args.force, inputs=[args.table, args.system, args.shape, *args.light_curves])
+    activity_files = [_split_column(a) for a in args.activity]
+    check_folder(args.out, args.force, inputs=[args.table, args.system, args.shape, *args.light_curves,
+                                               *(f for f, _ in activity_files)])
     system = System.from_toml(args.system)
+    from ttvkit.timing.indicators import read_indicator_series
+
+    activity = tuple(read_indicator_series(f, value=c) for f, c in activity_files)
     if parse_target(args) is None and system.star.ra is not None and system.star.dec is not None:
         args.ra, args.dec = str(system.star.ra.to_value("deg")), str(system.star.dec.to_value("deg"))
     table = read_table_from_args(args)
@@ -130,7 +141,7 @@ def _cmd_diagnose(args) -> int:
                                likelihood=like,
                                progress=not args.no_progress and not args.json, perturber_map=perturber_map,
                                fit_perturber=args.fit_perturber, perturber_steps=args.perturber_steps,
-                               excess_noise=not args.no_excess_noise)
+                               excess_noise=not args.no_excess_noise, activity=activity)
     calibration = None
     if args.calibrate:
         from ttvkit.diagnosis.calibration import CalibrationOptions
@@ -156,3 +167,13 @@ def _cmd_diagnose(args) -> int:
     print(f"report: {paths['report.html']}")
     print("(a plausibility screen, not a proof)")
     return 0
+
+
+def _split_column(text: str) -> tuple:
+    """'file.csv:column' → (file, column); a plain path (or a Windows drive letter) → (path, None)."""
+    import os
+
+    head, sep, tail = text.rpartition(":")
+    if sep and head and not os.path.exists(text) and "/" not in tail and "\\" not in tail:
+        return head, tail
+    return text, None

@@ -17,6 +17,8 @@ import io
 import json
 from pathlib import Path
 
+import numpy as np
+
 from ttvkit.diagnosis.diagnose import CAUTION
 from ttvkit.io.outdir import staged_folder
 from ttvkit.report.numbers import format_value
@@ -50,6 +52,8 @@ _CAPTIONS = {
                      "masses, coloured by how much they improve χ²; the dashed line is the RV limit; grey "
                      "periods are Hill-unstable beside the transiting planet.",
     "posterior_corner": "Posterior of the leading hypothesis (or its Gaussian approximation when not sampled).",
+    "activity_link": "The O − C (top, with its smoothing) and an activity indicator (bottom) on one time axis; "
+                     "the line over the indicator is the period change ΔP/P at the best lag, scaled onto it.",
     "calibration": "Injection and recovery on simulated tables with this table's epochs, kinds and errors: "
                    "the fraction of injected signals the verdict calls needed (binomial 1σ bars) and the "
                    "false alarms of each hypothesis on tables without a signal.",
@@ -138,8 +142,9 @@ def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
                      "".join(f"<li>{_e(n)}</li>" for n in (notes or [])) + "</ul>")
     parts.append("<h2>Figures</h2>")
     for name, fig in figures.items():
+        caption = _CAPTIONS.get(name.split("__")[0], "")
         parts.append(f"<figure><img alt='{_e(name)}' src='{_png_data_uri(fig)}'><figcaption><b>{_e(name)}</b>: "
-                     f"{_e(_CAPTIONS.get(name, ''))} (PNG and PDF files beside this page.)</figcaption></figure>")
+                     f"{_e(caption)} (PNG and PDF files beside this page.)</figcaption></figure>")
     f = d.forecast
     if f is not None:
         parts.append(f"<h2>Forecast</h2><p>Future timing precision assumed: {f.precision_s:.0f} s.</p>")
@@ -164,6 +169,8 @@ def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
         parts.append(_perturber_section(d.perturbers))
     if getattr(d, "calibration", None) is not None:
         parts.append(_calibration_section(d.calibration))
+    if getattr(d, "activity", None):
+        parts.append(_activity_section(d.activity))
     parts.append("<h2>Each hypothesis</h2>")
     for a in d.assessments:
         table = a.fit.to_dict()
@@ -193,6 +200,21 @@ def render_html(diagnosis, figures: dict, notes: list | None = None) -> str:
                  "document.images);document.body.setAttribute('data-figures-loaded',im.filter(function(i)"
                  "{return i.complete&&i.naturalWidth>0;}).length+'/'+im.length);});</script></body></html>")
     return "\n".join(parts)
+
+
+def _activity_section(results) -> str:
+    """Does each activity indicator vary with the period change (the activity mechanism's prediction)?"""
+    rows = "".join(
+        f"<tr><td>{_e(r.series.name)}</td><td>{np.size(r.series.time)}</td><td>{r.link.correlation:+.2f}</td>"
+        f"<td>{r.link.lag:+.0f}</td><td>{r.link.p_value:.3g}</td></tr>" for r in results)
+    return ("<h2>Does the activity follow the period?</h2>"
+            "<p>If a magnetic cycle drives the modulation, the active star's activity should vary with the period "
+            "change ΔP/P = d(O−C)/dt (Applegate 1992, ApJ 385, 621). Each indicator is correlated with ΔP/P over "
+            "a range of lags; the p-value counts how often indicator series of the same red noise but no link "
+            "reach the same correlation (not a plain Pearson p-value, which red series make far too small). "
+            "The result enters the verdict of each activity hypothesis as a check.</p>"
+            "<table><tr><th>indicator</th><th>points</th><th>r at best lag</th><th>lag (d)</th><th>p</th></tr>"
+            + rows + "</table>")
 
 
 def _calibration_section(c) -> str:
@@ -234,6 +256,13 @@ def write_report(diagnosis, out: "str | Path", force: bool = False, notes: list 
         from ttvkit.report.calibration_figure import calibration_figure
 
         figures["calibration"] = calibration_figure(diagnosis.calibration)
+    for k, r in enumerate(getattr(diagnosis, "activity", ()) or ()):
+        from ttvkit.report.activity_figure import activity_link_figure
+
+        label = r.series.name + (f" ({r.series.unit})" if r.series.unit else "")
+        name = f"activity_link__{k + 1}" if len(diagnosis.activity) > 1 else "activity_link"
+        figures[name] = activity_link_figure(r.link, r.oc_time, r.oc, r.oc_error, r.series.time, r.series.value,
+                                             r.series.error, indicator_label=label)
     written = {}
     with staged_folder(out, force) as stage:
         for name, fig in figures.items():

@@ -156,7 +156,7 @@ def modulation_checks(fit, system, term=None) -> list[Check]:
     spread = (f"; P({'either star' if two else 'the star'} can power it) = {p_ok:.3g} over the fit's and "
               f"the {'stars' if two else 'star'}' uncertainties")
     out.append(Check("activity energy budget", lenient.energy_ratio, 1.0, "", "fail" if fails else "pass",
-                     (f"{'neither star' if two else 'the star'} can power a {amp:.3g} O−C semi-amplitude over "
+                     (f"{'neither star can' if two else 'the star cannot'} power a {amp:.3g} O−C semi-amplitude over "
                       f"{p_mod:.3g}: even the {lenient.model} model of {star} needs {lenient.energy_ratio:.3g}× "
                       f"its output (largest it can power: {lenient.max_amplitude:.3g}){spread} ({sigma:.1f}σ)")
                      if fails else

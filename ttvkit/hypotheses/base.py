@@ -66,7 +66,9 @@ SYMBOLS = {"T0": "T₀", "P": "P", "dP_dE": "dP/dE", "light_time_amplitude": "A 
            "modulation_period": "P (modulation)", "perturber_mass": "m′", "perturber_period": "P′",
            "perturber_ecosw": "e′ cos ω′", "perturber_esinw": "e′ sin ω′", "perturber_longitude": "λ′ − λ",
            "e_cos_omega0": "e cos ω₀", "e_sin_omega0": "e sin ω₀", "domega_dE": "dω/dE",
-           "ttv_sin_amplitude": "TTV sine part", "ttv_cos_amplitude": "TTV cosine part"}
+           "ttv_sin_amplitude": "TTV sine part", "ttv_cos_amplitude": "TTV cosine part",
+           "ln_gp_amplitude": "ln σ (process, d)", "ln_characteristic_period": "ln ρ (d)",
+           "ln_coherence_time": "ln τ (d)"}
 
 
 @dataclass(frozen=True)

@@ -14,8 +14,9 @@ Foreman-Mackey et al. 2017, AJ 154, 220) around the ephemeris:
 * its coherence time τ: how long the oscillation keeps its phase.
 
 All three are fitted as logarithms (``ln_gp_amplitude``, …, in days), so
-their priors are log-uniform: scales are what is unknown.  τ ≫ ρ is nearly a sinusoid; τ ≲ ρ/2 is red
-  noise with no cycle at all (the quality factor Q = π τ/ρ < ½).
+their priors are log-uniform: scales are what is unknown.  τ ≫ ρ is nearly
+a sinusoid; τ ≲ ρ/2 is red noise with no cycle at all (the quality factor
+Q = π τ/ρ < ½).
 
 The modulation is not a parameter but integrated out: the likelihood is the
 GP's marginal likelihood, ln N(O−C | ephemeris, K + diag σᵢ²), which is how

@@ -164,3 +164,26 @@ def test_diagnose_with_light_curves(tmp_path, demo_inputs, capsys):
     d = json.loads(stdout)
     assert d["n_points"] == 99 + len(curves)  # every demo light curve holds one full transit
     assert any(s.endswith(".csv") for s in d["sources"])
+
+
+def test_a_closed_pipe_is_not_an_internal_error(monkeypatch, capsys, tmp_path):
+    # `ttvkit ... | head -1`: the reader leaves, printing raises BrokenPipeError; the command stops
+    # quietly (status 0, nothing on stderr) instead of reporting an internal error.
+    import sys
+
+    from ttvkit.cli.main import main
+
+    class Closed:
+        def write(self, text):
+            raise BrokenPipeError(32, "Broken pipe")
+
+        def flush(self):
+            pass
+
+    system = tmp_path / "star.toml"
+    system.write_text('[star]\nmass = "0.9 Msun"\nradius = "0.9 Rsun"\nteff = "5200 K"\n[orbit]\nperiod = "2 d"\n')
+    monkeypatch.setattr(sys, "stdout", Closed())
+    status = main(["budget", "--system", str(system), "--amplitude", "30s", "--modulation-period", "10yr"])
+    monkeypatch.undo()
+    assert status == 0
+    assert "internal error" not in capsys.readouterr().err

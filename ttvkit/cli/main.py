@@ -8,6 +8,7 @@ line on stderr and exit status 2; ``--debug`` shows the traceback instead.
 from __future__ import annotations
 
 import argparse
+import os
 import signal
 import sys
 import textwrap
@@ -66,6 +67,12 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print(f"ttvkit {args.command}: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:   # the reader went away (`ttvkit ... | head`): nothing is wrong, stop quietly
+        try:
+            sys.stdout = open(os.devnull, "w")    # so the interpreter's final flush does not complain
+        except OSError:
+            pass
+        return 0
     except Exception as exc:  # the user must never see a traceback by default
         if args.debug:
             raise

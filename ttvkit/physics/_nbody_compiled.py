@@ -22,6 +22,7 @@ the saving for sparse data.
 
 from __future__ import annotations
 
+import functools
 import threading
 
 import numpy as np
@@ -60,7 +61,9 @@ def _drift_one(r, v, i, mu, h):
         x -= step
         if not abs(step) >= 1e-14:
             break
-    sx, cx = np.sin(x), np.cos(x)
+    # sin and cos of the last, tiny step's result by the rotation to first order
+    # (|step| < 1e-14: what is left, step²/2 < 1e-28, is far below a rounding)
+    sx, cx = sx - cx * step, cx + sx * step
     f = 1 - a / r0 * (1 - cx)
     g = h - (x - sx) / n
     rr = a + (r0 - a) * cx + rv * np.sqrt(a / mu) * sx
@@ -297,13 +300,12 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
     r0 = np.empty((n, 3))
     v0 = np.empty((n, 3))
     vs = np.empty((n, 3))
-    # the accelerations (modified and plain) of the last main-loop kick, at
-    # the positions the next step starts from: the refinement of a transit
-    # needs both at the start of its step, and recomputing them costs a kick
-    am_end = np.empty((n, 3))
-    ap_end = np.empty((n, 3))
-    am = np.empty((n, 3))
-    ap = np.empty((n, 3))
+    # the accelerations (modified and plain) of each main-loop kick, at the
+    # positions the next step starts from: the refinement of a transit needs
+    # both at the start of its step, and recomputing them costs a kick.  Two
+    # slots, the step's parity choosing which: no copying per step.
+    am2 = np.empty((2, n, 3))
+    ap2 = np.empty((2, n, 3))
     rt = np.empty((n, 3))
     vt = np.empty((n, 3))
     mod = kappa * h * h
@@ -316,18 +318,14 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
     for p in range(n):
         g_old[p] = r[p, 0] * v[p, 0] + r[p, 1] * v[p, 1]
     _kick(r, v, 0.5 * h, mod, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
-    _keep(a, da, mod, am_end, ap_end)
+    _keep(a, da, mod, am2[0], ap2[0])
     for step in range(n_steps):
+        slot = step & 1
+        am, ap = am2[slot], ap2[slot]
         r0[:, :] = r
         v0[:, :] = v
-        am[:, :] = am_end
-        ap[:, :] = ap_end
         _drift(r, v, mu, h)
-        broken = False
-        for p in range(n):
-            if not np.isfinite(r[p, 0]):
-                broken = True
-        if broken:                      # an orbit became unbound: the whole system is NaN
+        if not np.isfinite(np.sum(r[:, 0])):  # an orbit became unbound (its drift left NaN): all NaN
             for p in range(n):
                 for q in range(k_max):
                     out[p, q] = np.nan
@@ -352,7 +350,7 @@ def _one_system(m, r, v, h, n_steps, wanted, want_epoch, light_time, corrector,
                     hits += 1
             g_old[p] = g_new
         _kick(r, v, h, mod, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
-        _keep(a, da, mod, am_end, ap_end)
+        _keep(a, da, mod, am2[1 - slot], ap2[1 - slot])
         if hits == 0:
             continue
         # refine from the synchronised start of the step (the velocities without
@@ -385,6 +383,15 @@ _batch_threads = njit(cache=True, error_model="numpy", parallel=True)(_batch)
 _PARALLEL = threading.Lock()
 
 
+@functools.lru_cache(maxsize=8)
+def _op_arrays(ops: tuple) -> tuple:
+    """A corrector's (kind, value/h) sequence as the kernel's arrays (kinds 0 = drift, 1 = kick); cached."""
+    kinds = np.array([0 if k == "d" else 1 for k, _ in ops], np.int64)
+    values = np.array([x for _, x in ops], float)
+    kinds.flags.writeable = values.flags.writeable = False
+    return kinds, values
+
+
 def integrate(masses, r, v, h, n_steps, wanted, want_epoch, light_time: bool, corrector: bool,
               forward, inverse, kappa: float, threads: bool = True) -> tuple:
     """Transit times [S, N, K] of a batch from Jacobi states (already sorted inner to outer).
@@ -397,10 +404,8 @@ def integrate(masses, r, v, h, n_steps, wanted, want_epoch, light_time: bool, co
     """
     s, nb = masses.shape
     out = np.full((s, nb - 1, want_epoch.size), np.nan)
-    fk = np.array([0 if k == "d" else 1 for k, _ in forward], np.int64)
-    fv = np.array([x for _, x in forward], float)
-    ik = np.array([0 if k == "d" else 1 for k, _ in inverse], np.int64)
-    iv = np.array([x for _, x in inverse], float)
+    fk, fv = _op_arrays(tuple(forward))
+    ik, iv = _op_arrays(tuple(inverse))
     r_end, v_end = np.array(r, float), np.array(v, float)      # integrated in place
     args = (np.ascontiguousarray(masses, float), r_end, v_end,
             np.ascontiguousarray(h, float), np.ascontiguousarray(n_steps, np.int64),

@@ -44,6 +44,8 @@ integrates the same systems with scipy's DOP853 (rtol 1e-12) for the tests.
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 from ttvkit.errors import InputError
@@ -197,7 +199,8 @@ _CORRECTOR = _corrector_coefficients()
 _OUTPUT_CORRECTOR = _corrector_coefficients(pairs=1, exact=1)
 
 
-def _corrector_ops(inverse: bool) -> list[tuple[str, float]]:
+@functools.lru_cache(maxsize=2)
+def _corrector_ops(inverse: bool) -> tuple[tuple[str, float], ...]:
     """The corrector as a sequence of drifts ("d") and kicks ("k"), lengths in units of the step.
 
     The forward one is :data:`_CORRECTOR`; the inverse, applied at outputs,
@@ -215,7 +218,7 @@ def _corrector_ops(inverse: bool) -> list[tuple[str, float]]:
             merged[-1] = ("d", merged[-1][1] + x)
         else:
             merged.append((kind, x))
-    return merged
+    return tuple(merged)
 
 
 #: Steps per inner orbit (the usual P/20; with the corrector and the modified

@@ -77,3 +77,31 @@ def test_white_noise_does_not_ask_for_a_process():
     table = wandering(3, sigma_s=0.0)
     gp = fit(table, "quasi-periodic-modulation")
     assert gp.bic > fit(table, "constant-period").bic
+
+
+def test_conditional_mean_matches_the_dense_formula_at_unsorted_times():
+    # The process's conditional mean K*(K + D)⁻¹ r by dense numpy linear algebra (the textbook GP
+    # prediction, e.g. Rasmussen & Williams 2006, eq. 2.23), with the rows out of time order: the
+    # figures' residuals and the fit's χ² use it.
+    from ttvkit.inference.fitting import process_mean
+
+    table = wandering(5)
+    gp = fit(table, "quasi-periodic-modulation")
+    data, hyp = gp.data, gp.hypothesis
+    rng = np.random.default_rng(1)
+    shuffled = rng.permutation(data.n)
+    from dataclasses import replace
+
+    data = replace(data, **{f: getattr(data, f)[shuffled] for f in ("epoch", "phase", "secondary", "time", "sigma")})
+    k = hyp.n_parameters
+    resid = data.time - hyp.predict(gp.theta[:k], data)
+    from celerite2 import terms
+
+    sigma, rho, tau = hyp.process(gp.theta[:k])
+    lag = np.abs(data.time[:, None] - data.time[None, :])
+    cov = terms.SHOTerm(sigma=sigma, rho=rho, tau=tau).get_value(lag)
+    dense = cov @ np.linalg.solve(cov + np.diag(data.sigma ** 2), resid)
+    mean, _ = process_mean(hyp, data, gp.likelihood, gp.theta)
+    assert np.max(np.abs(mean - dense)) * 86400 < 1e-6          # seconds
+    # and the χ² is about the whole model: near its degrees of freedom for honest 3-s errors
+    assert gp.chi2 < 1.5 * gp.dof

@@ -121,7 +121,7 @@ def fit(table, hypothesis="constant-period", likelihood: Likelihood | None = Non
     elif not like.is_least_squares:
         theta, cov = _maximise(hyp, data, like, theta, cov, lo, hi)
     resid = data.time - hyp.predict(theta[:k], data)
-    chi2 = float(np.sum((resid / data.sigma) ** 2))
+    chi2 = _chi2(hyp, data, like, theta)
     log_l = float(_log_like(like, data, resid, theta[k:], hyp, theta[:k]))
     return FitResult(hyp, data, theta, cov, log_l, chi2, like, warnings=notes)
 
@@ -156,6 +156,42 @@ def _log_like(like: Likelihood, data: TimingData, resid, extra, hyp: Hypothesis 
         except Exception:                       # a singular covariance at an extreme point: reject it
             out[i] = -np.inf
     return out if np.ndim(resid) > 1 else out[0]
+
+
+def process_mean(hyp: Hypothesis, data: TimingData, like: Likelihood, theta, at=None) -> tuple:
+    """The Gaussian-process term's conditional mean and standard deviation given the data.
+
+    At the times ``at`` (days from ``data.t_ref``; default the data's own),
+    at the parameter vector ``theta`` (model parameters, then the
+    likelihood's jitters): celerite2's O(n) prediction from the residuals
+    about the ephemeris.
+    """
+    import celerite2
+    from celerite2 import terms
+
+    k = hyp.n_parameters
+    theta = np.asarray(theta, float)
+    sigma, rho, tau = hyp.process(theta[:k])
+    group = like.group_index(data.source, data.n) if like.jitter else None
+    order = np.argsort(data.time, kind="stable")
+    resid = data.time - hyp.predict(theta[:k], data)
+    gp = celerite2.GaussianProcess(terms.SHOTerm(sigma=sigma, rho=rho, tau=tau))
+    gp.compute(data.time[order], diag=like.variance(data.sigma, theta[k:] if like.jitter else None, group)[order],
+               quiet=True)
+    at = data.time if at is None else np.asarray(at, float)
+    where = np.argsort(at, kind="stable")           # celerite2 predicts at sorted times only
+    mean, var = np.empty(at.size), np.empty(at.size)
+    mean[where], var[where] = gp.predict(resid[order], t=at[where], return_var=True)
+    return mean, np.sqrt(np.clip(var, 0.0, None))
+
+
+def _chi2(hyp: Hypothesis, data: TimingData, like: Likelihood, theta) -> float:
+    """χ² of the residuals about the whole model (less the process's conditional mean, when it has one)."""
+    k = hyp.n_parameters
+    resid = data.time - hyp.predict(np.asarray(theta, float)[:k], data)
+    if hyp.has_process:
+        resid = resid - process_mean(hyp, data, like, theta)[0]
+    return float(np.sum((resid / data.sigma) ** 2))
 
 
 def _least_squares(func, start, lo, hi, quick: bool, jac="2-point"):
@@ -380,7 +416,7 @@ def sample(result: FitResult, n_steps: int = 500, n_walkers: int | None = None, 
     resid = data.time - hyp.predict(theta[:k], data)
     return FitResult(hyp, data, theta, np.cov(samples.T).reshape(ndim, ndim),
                      float(_log_like(like, data, resid, theta[k:], hyp, theta[:k])),
-                     float(np.sum((resid / data.sigma) ** 2)), like, samples, diagnostics, notes)
+                     _chi2(hyp, data, like, theta), like, samples, diagnostics, notes)
 
 
 def _log_jitter_prior(like: Likelihood, log_jitter: np.ndarray) -> np.ndarray | float:

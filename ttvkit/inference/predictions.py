@@ -93,22 +93,9 @@ def process_prediction(result: FitResult, at) -> tuple[np.ndarray, np.ndarray]:
     spread to the process's σ.  The band adds it in quadrature to the
     ephemeris's own spread.
     """
-    import celerite2
-    from celerite2 import terms
+    from ttvkit.inference.fitting import process_mean
 
-    hyp, data, like = result.hypothesis, result.data, result.likelihood
-    theta = result.theta
-    k = hyp.n_parameters
-    sigma, rho, tau = hyp.process(theta[:k])
-    group = like.group_index(data.source, data.n) if like.jitter else None
-    order = np.argsort(data.time, kind="stable")
-    resid = data.time - hyp.predict(theta[:k], data)
-    gp = celerite2.GaussianProcess(terms.SHOTerm(sigma=sigma, rho=rho, tau=tau))
-    gp.compute(data.time[order], diag=like.variance(data.sigma, theta[k:] if like.jitter else None, group)[order],
-               quiet=True)
-    at = np.asarray(at, float)
-    mean, var = gp.predict(resid[order], t=at, return_var=True)
-    return mean, np.sqrt(np.clip(var, 0.0, None))
+    return process_mean(result.hypothesis, result.data, result.likelihood, result.theta, at)
 
 
 def predict_mid_times(result: FitResult, epochs, kind="transit", target=None,

@@ -172,3 +172,59 @@ def test_modulation_budget_names_each_star(growing):
     assert "energy ratio (other star ([other_star]), thin shell)" in names
     assert _check(hyp, "energy ratio (other star ([other_star]), thin shell)")["value"] > 1e4
     assert "primary star" in _check(hyp, "activity energy budget")["reason"]
+
+
+# An invented semi-detached pair for the sign of the transfer: a 2.0 M☉, 2.0 R☉ star and a 0.5 M☉ star of
+# 3.3 R☉ on a 3-d orbit.  Hand-derived (Kepler's third law, then Eggleton 1983 as above): a = 11.88 R☉;
+# the lighter star's lobe (q = 0.25) is 0.2677 a = 3.18 R☉, so it fills 1.04 of it; the heavier star's
+# (q = 4) is 0.5014 a = 5.96 R☉, so it fills 0.34 of it.
+SEMI_DETACHED = """
+name = "invented semi-detached pair"
+[star]
+mass = "2.0 +- 0.02 Msun"
+radius = "2.0 +- 0.02 Rsun"
+teff = "9000 K"
+[other_star]
+mass = "0.5 +- 0.01 Msun"
+radius = "3.3 +- 0.03 Rsun"
+teff = "4500 K"
+[orbit]
+period = "3.0 d"
+"""
+
+
+def _semi_detached_check(tmp_path, pdot, seed):
+    from ttvkit.diagnosis.checks import mass_transfer_checks
+    from ttvkit.hypotheses import HostContext
+
+    path = tmp_path / "semi.toml"
+    path.write_text(SEMI_DETACHED)
+    system = System.from_toml(path)
+    rng = np.random.default_rng(seed)
+    epochs = np.sort(rng.choice(np.arange(4000), 120, replace=False)).astype(float)
+    sigma = np.full(epochs.size, 20.0 / 86400)
+    times = 2455000 + 3.0 * epochs + 0.5 * pdot * 3.0 * epochs ** 2 + rng.normal(0, sigma)
+    table = TimingTable(times, sigma, epoch=epochs.astype(int), kind="primary", source="simulated")
+    result = fit(table, "mass-transfer", context=HostContext.from_system(system))
+    check = next(c for c in mass_transfer_checks(result, system) if c.name == "donor fills its Roche lobe")
+    return result.estimate("transfer_rate"), check
+
+
+@pytest.mark.parametrize("seed", [0, 5])
+def test_roche_check_allows_the_other_sign_when_the_rate_is_not_measured(tmp_path, seed):
+    # No period change injected: the fitted rate's sign is chance; with these seeds it comes out negative
+    # within 1σ, which names the heavier star as donor (inside its lobe, 0.34).  The posterior still allows
+    # the positive sign, whose donor (the lighter star, 1.04) fills its lobe: mass transfer is not excluded.
+    rate, check = _semi_detached_check(tmp_path, 0.0, seed)
+    assert rate.value < 0 and abs(rate.value) < rate.upper
+    assert check.value == pytest.approx(0.34, abs=0.01)
+    assert check.outcome == "pass"
+
+
+def test_roche_check_excludes_the_measured_sign_whose_donor_is_inside(tmp_path):
+    # A clearly shrinking period names the heavier star (fills 0.34): excluded.  A clearly growing one names
+    # the lighter star (fills 1.04): allowed.
+    _, check = _semi_detached_check(tmp_path, -1e-9, 1)
+    assert check.outcome == "fail" and check.value == pytest.approx(0.34, abs=0.01)
+    _, check = _semi_detached_check(tmp_path, +1e-9, 1)
+    assert check.outcome == "pass" and check.value == pytest.approx(1.04, abs=0.015)

@@ -487,24 +487,35 @@ def mass_transfer_checks(fit, system, term=None) -> list[Check]:
         out.append(_untested("donor fills its Roche lobe", MissingValueError(
             f"{donor_name}'s radius is needed for its Roche lobe")))
     else:
-        fill = []
+        # each star's fill over the stars' uncertainties (NaN without a radius)
+        fills = {True: [], False: []}            # keyed by "is the primary ([star])"
         for s in draws:
-            d, a = _binary_stars(s)
-            if donor is not star:
-                d, a = a, d
-            if d.radius is None:
-                continue
-            fill.append(float((d.radius / roche_lobe_radius(d.mass, a.mass, s.semi_major_axis)).decompose()))
-        fill = np.array(fill)
-        value = float(np.median(fill))
-        p_fills = 1.0 - probability_below(fill, 1.0)
+            st, ot = _binary_stars(s)
+            for is_star, (d, a) in ((True, (st, ot)), (False, (ot, st))):
+                fills[is_star].append(np.nan if d.radius is None else float(
+                    (d.radius / roche_lobe_radius(d.mass, a.mass, s.semi_major_axis)).decompose()))
+        fill = np.array(fills[donor is star])
+        value = float(np.nanmedian(fill))
+        # The posterior may allow either sign, and each sign names the other star as donor: transfer is
+        # excluded only when the donor of every sign it allows is inside its lobe.  A star without a
+        # radius cannot be tested and counts as filling.
+        p_other_sign = (probability_below(rates, 0.0) if grows else 1.0 - probability_below(rates, 0.0))
+        other_fill = np.array(fills[donor is not star])
+        other_name = "the other star ([other_star])" if donor is star else "the primary ([star])"
+        p_other_fills = (1.0 if not np.isfinite(other_fill).any() or p_other_sign == 0
+                         else 1.0 - probability_below(other_fill, 1.0))
+        p_fills = (1.0 - p_other_sign) * (1.0 - probability_below(fill, 1.0)) + p_other_sign * p_other_fills
         sigma = tension_sigma(p_fills)
         fails = value < 1 and sigma >= FAIL_SIGMA
+        either = (f"; P(the donor of either sign fills its lobe) = {p_fills:.2g} (P(the rate has the other sign) "
+                  f"= {p_other_sign:.2g})" if value < 1 and not fails else "")
         out.append(Check("donor fills its Roche lobe", value, 1.0, "R/R_L", "fail" if fails else "pass",
                          (f"{donor_name} fills {value:.2g} of its Roche lobe (Eggleton 1983, ApJ 268, 368): "
-                          f"it cannot overflow it, so no conservative transfer from it "
-                          f"(P(fills) = {p_fills:.2g}, {sigma:.1f}σ)") if fails else
-                         f"{donor_name} fills {value:.2g} of its Roche lobe (Eggleton 1983, ApJ 268, 368)",
+                          f"it cannot overflow it, so no conservative transfer from it" + (
+                              f", nor from {other_name}, the donor of the other sign, which fills "
+                              f"{np.nanmedian(other_fill):.2g} of its" if p_other_sign >= 0.01 else "") +
+                          f" (P(the donor of either sign fills its lobe) = {p_fills:.2g}, {sigma:.1f}σ)") if fails else
+                         f"{donor_name} fills {value:.2g} of its Roche lobe (Eggleton 1983, ApJ 268, 368)" + either,
                          tension=sigma, probability=p_fills))
     try:
         limit = thermal_transfer_rate(donor).to_value(u.Msun / u.yr)

@@ -228,3 +228,20 @@ def test_roche_check_excludes_the_measured_sign_whose_donor_is_inside(tmp_path):
     assert check.outcome == "fail" and check.value == pytest.approx(0.34, abs=0.01)
     _, check = _semi_detached_check(tmp_path, +1e-9, 1)
     assert check.outcome == "pass" and check.value == pytest.approx(1.04, abs=0.015)
+
+
+def test_a_robust_diagnosis_of_a_binary_leaves_the_gaussian_process_out(nn_ser):
+    # A Gaussian process has a closed-form marginal likelihood only with Gaussian errors, so with a
+    # Student-t likelihood the quasi-periodic hypothesis cannot be fitted: diagnose leaves it out with a
+    # note instead of failing altogether, and fitting it by name is refused with that reason.
+    from ttvkit.diagnosis.diagnose import diagnose
+    from ttvkit.inference import Likelihood
+
+    robust = Likelihood("student-t")
+    diag = diagnose(parabola(+2e-11), nn_ser, sampled=False, progress=False, likelihood=robust).to_dict()
+    names = [h["name"] for h in diag["hypotheses"]]
+    assert "quasi-periodic-modulation" not in names and "mass-transfer" in names
+    assert any("quasi-periodic-modulation" in w["message"] and "Gaussian likelihood" in w["message"]
+               for w in diag["warnings"])
+    with pytest.raises(InputError, match="quasi-periodic-modulation needs a Gaussian likelihood"):
+        fit(parabola(+2e-11), "quasi-periodic-modulation", robust)

@@ -305,6 +305,13 @@ def diagnose(table, system, options: DiagnosisOptions | None = None, *, executor
     if "constant-period" not in hypotheses:  # the reference of every O−C
         hypotheses.insert(0, "constant-period")
     notes = [{"kind": "table", "message": m} for m in getattr(table, "intake_warnings", [])]
+    robust = options.likelihood is not None and options.likelihood.kind != "gaussian"
+    added = [h for h in hypotheses if h not in options.hypotheses]
+    if robust and any(get_hypothesis(h).has_process for h in added):
+        # a Gaussian process has a closed-form likelihood only with Gaussian errors: not fitted by default
+        hypotheses = [h for h in hypotheses if h not in added or not get_hypothesis(h).has_process]
+        notes.append({"kind": "likelihood", "message": "quasi-periodic-modulation (a Gaussian process) was not "
+                      "fitted: it needs a Gaussian likelihood, and a Student-t likelihood was asked for"})
     if options.excess_noise:
         from ttvkit.inference.excess_noise import decide_excess_noise
 

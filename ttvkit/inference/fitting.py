@@ -74,6 +74,9 @@ def fit(table, hypothesis="constant-period", likelihood: Likelihood | None = Non
     data = _data(table, context)
     like = likelihood or Likelihood()
     k = hyp.n_parameters
+    if hyp.has_process and like.kind != "gaussian":
+        raise InputError(f"{hyp.name} needs a Gaussian likelihood: a Student-t likelihood with a Gaussian "
+                         "process has no closed form (drop --robust / the Student-t likelihood for it)")
     if data.n <= k + like.n_extra:
         raise InputError(f"hypothesis {hyp.name} has {k + like.n_extra} parameters but the table has "
                          f"only {data.n} mid-times; it cannot be fitted")

@@ -245,3 +245,13 @@ def test_a_robust_diagnosis_of_a_binary_leaves_the_gaussian_process_out(nn_ser):
                for w in diag["warnings"])
     with pytest.raises(InputError, match="quasi-periodic-modulation needs a Gaussian likelihood"):
         fit(parabola(+2e-11), "quasi-periodic-modulation", robust)
+
+
+def test_other_star_polytropic_index_is_range_checked(tmp_path):
+    # A Lane–Emden polytrope of index n >= 5 has no finite radius (Chandrasekhar 1939, An Introduction to
+    # the Study of Stellar Structure, ch. IV): refused by file and table when the system is read, as for
+    # [star], instead of an internal error in the other star's Applegate budget after every fit.
+    bad = tmp_path / "bad.toml"
+    bad.write_text(NN_SER.replace('teff = "57000 K"', 'teff = "57000 K"\npolytropic_index = 5.5'))
+    with pytest.raises(InputError, match=r"bad.toml: \[other_star\] polytropic_index = 5.5 must be in \[0, 5\)"):
+        System.from_toml(bad)

@@ -385,10 +385,11 @@ def _check_ranges(where, tables):
             v = tables.get(section, {}).get(key)
             if v is not None and not (float(getattr(v, "value", v)) > 0):
                 raise InputError(f"{where}: [{section}] {key} must be positive")
-    index = tables["star"].get("polytropic_index")
-    if index is not None and not (0 <= index < 5):
-        raise InputError(f"{where}: [star] polytropic_index = {index:g} must be in [0, 5) "
-                         "(a polytrope of index 5 or more has no finite radius)")
+    for section in ("star", "other_star"):
+        index = tables.get(section, {}).get("polytropic_index")
+        if index is not None and not (0 <= index < 5):
+            raise InputError(f"{where}: [{section}] polytropic_index = {index:g} must be in [0, 5) "
+                             "(a polytrope of index 5 or more has no finite radius)")
     dec = tables["star"].get("dec")
     if dec is not None and not (-90 <= dec.to_value(u.deg) <= 90):
         raise InputError(f"{where}: [star] dec = {dec} must lie between -90 and +90 degrees")

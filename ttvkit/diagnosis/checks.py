@@ -466,7 +466,8 @@ def _binary_stars(system):
 
 
 def mass_transfer_checks(fit, system, term=None) -> list[Check]:
-    """Roche-lobe overflow of the donor the sign names (decisive), its thermal-timescale rate (tension)."""
+    """Roche-lobe overflow of the donor the sign names, weighted over both signs the posterior allows
+    (decisive), its thermal-timescale rate (tension)."""
     try:
         star, other = _binary_stars(system)
     except MissingValueError as exc:

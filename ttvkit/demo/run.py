@@ -181,7 +181,7 @@ def _binary_demo(stage: Path, shown: Path, say, *, sampled: bool, progress: bool
                              _target_of(system))
     brightness = read_indicator_series(paths["indicator"], name="V magnitude of Tarrowby A")
     say(f"demo: {len(table)} primary and secondary eclipse mid-times; testing the link of "
-        f"{brightness.name!r} ({len(brightness.time)} seasons) with the period change")
+        f"{brightness.name!r} ({len(brightness.time)} points) with the period change")
     options = DiagnosisOptions(sampled=sampled, progress=progress, activity=(brightness,))
     pool = local_pool() if sampled else None
     try:

@@ -125,3 +125,17 @@ def test_an_unrelated_red_indicator_is_not_called_linked(scenario):
     result = link_indicators(table, fit(table, "constant-period"), [series], seed=3)[0]
     assert result.link.p_value > 0.01
     assert indicator_check(result, fit(table, "sinusoidal-modulation")).outcome != "pass"
+
+
+def test_an_indicator_that_misses_the_timings_is_refused_by_file(scenario, tmp_path):
+    # Decimal years 1950-1955 against eclipse timings of 1995-2025: no overlap at any lag, refused naming
+    # the indicator's file (several may be given) rather than with an anonymous message.
+    from ttvkit.diagnosis.activity import link_indicators
+    from ttvkit.inference.fitting import fit
+
+    _, _, table = scenario
+    f = tmp_path / "old.csv"
+    f.write_text("year,flux,flux_err\n" + "".join(f"{1950 + i / 4:.2f},{1 + 0.01 * (i % 5)},0.01\n"
+                                                  for i in range(20)))
+    with pytest.raises(InputError, match=r"old.csv: activity indicator 'flux': .*do not overlap"):
+        link_indicators(table, fit(table, "constant-period"), [read_indicator_series(f)])

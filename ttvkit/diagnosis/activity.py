@@ -25,6 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ttvkit.constants import DAY_S, YEAR_D
+from ttvkit.errors import InputError, located
 
 __all__ = ["IndicatorResult", "link_indicators", "indicator_check", "LINKED_P", "UNLINKED_P"]
 
@@ -70,8 +71,11 @@ def link_indicators(table, reference_fit, series, seed: int = 0, n_surrogates: i
     oc = reference_fit.residuals()
     out = []
     for k, s in enumerate(series):
-        link = activity_link(table.time, oc, table.uncertainty, s.time, s.value, s.error,
-                             n_surrogates=n_surrogates, seed=seed + k)
+        try:
+            link = activity_link(table.time, oc, table.uncertainty, s.time, s.value, s.error,
+                                 n_surrogates=n_surrogates, seed=seed + k)
+        except InputError as exc:           # say which indicator series (file) it is
+            raise InputError(located(f"activity indicator {s.name!r}: {exc}", s.source)) from None
         out.append(IndicatorResult(s, link, np.asarray(table.time), np.asarray(oc), np.asarray(table.uncertainty)))
     return out
 

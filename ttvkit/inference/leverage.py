@@ -73,12 +73,19 @@ def find_leverage(result, table, context=None) -> list:
     Returns
     -------
     list of Leverage
-        Empty when no single row or source decides a detection, and for
-        expensive (N-body) hypotheses, whose refits would take minutes.
+        Empty when no single row or source decides a detection, for
+        expensive (N-body) hypotheses, whose refits would take minutes, and for
+        a Gaussian-process hypothesis, whose correlated rows the deletion
+        formula cannot rank.
     """
     from ttvkit.inference.fitting import fit
 
     if result.hypothesis.expensive:  # an N-body refit per candidate would take minutes: not examined
+        return []
+    if result.hypothesis.has_process:
+        # A Gaussian process is in the likelihood, not in predict: its parameters have no Jacobian column and
+        # the rows are correlated, so the deletion formula cannot rank rows (every shift is infinite and row 0
+        # would be "examined" by default).  Not examined.
         return []
     names = list(result.parameter_table())[:result.hypothesis.n_parameters]
     jac = _jacobian(result)

@@ -255,3 +255,18 @@ def test_other_star_polytropic_index_is_range_checked(tmp_path):
     bad.write_text(NN_SER.replace('teff = "57000 K"', 'teff = "57000 K"\npolytropic_index = 5.5'))
     with pytest.raises(InputError, match=r"bad.toml: \[other_star\] polytropic_index = 5.5 must be in \[0, 5\)"):
         System.from_toml(bad)
+
+
+def test_equal_masses_leave_the_transfer_rate_untested(tmp_path):
+    # Ṗ/P = 3 Ṁ (1/M_d − 1/M_a) vanishes for M_d = M_a (the relation checked in
+    # tests/physics/test_binaries.py): no rate follows, and the check says so instead of printing nan.
+    from ttvkit.diagnosis.checks import mass_transfer_checks
+    from ttvkit.hypotheses import HostContext
+
+    path = tmp_path / "twins.toml"
+    path.write_text(NN_SER.replace('"0.535 +- 0.012 Msun"', '"0.111 Msun"').replace('"0.111 +- 0.004 Msun"',
+                                                                                    '"0.111 Msun"'))
+    twins = System.from_toml(path)
+    result = fit(parabola(2e-11), "mass-transfer", context=HostContext.from_system(twins))
+    (check,) = mass_transfer_checks(result, twins)
+    assert check.outcome == "untested" and "equal masses" in check.reason

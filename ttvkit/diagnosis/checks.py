@@ -475,6 +475,10 @@ def mass_transfer_checks(fit, system, term=None) -> list[Check]:
     if not fit.has("transfer_rate"):
         return [_untested("donor fills its Roche lobe", MissingValueError("the stars' masses are needed"))]
     est = fit.estimate("transfer_rate")
+    if not np.isfinite(est.value):     # equal masses: dP/P = 3 dM (1/M_d − 1/M_a) = 0 whatever the rate
+        return [_untested("donor fills its Roche lobe", MissingValueError(
+            "the two stars have equal masses, so conservative transfer leaves the period unchanged to first "
+            "order and no transfer rate follows from a period change"))]
     rates = posterior_draws(fit, "transfer_rate")
     lighter_is_star = star.mass <= other.mass
     grows = est.value >= 0                       # the lighter star gives: the period grows

@@ -328,26 +328,56 @@ def _companion_from_other_star(companion: dict, other: "OtherStar", errors: dict
 _UNCERTAIN = re.compile(r"^\s*(?P<value>[-+0-9.eE]+)\s*(?:\+-|\+/-|±)\s*(?P<error>[0-9.eE+-]+)\s*(?P<unit>.*)$")
 
 
-def _split_uncertainty(value, where, section, key):
-    """``"1.43 +- 0.07 Msun"`` (or ``±``, ``+/-``) → ("1.43 Msun", "0.07 Msun"); other values unchanged."""
+def split_uncertainty(value, label: str, example: str = "1.43 +- 0.07 Msun"):
+    """``"1.43 +- 0.07 Msun"`` (or ``±``, ``+/-``) → ("1.43 Msun", "0.07 Msun"); other values unchanged.
+
+    ``label`` says where the value is (``"file: [star] mass"``) in the errors raised.
+    """
     if not isinstance(value, str):
         return value, None
     match = _UNCERTAIN.match(value)
     if match is None:
         if "+-" in value or "±" in value or "+/-" in value:
-            raise InputError(f"{where}: [{section}] {key} = {value!r}: write a value with its 1σ uncertainty "
-                             "as \"1.43 +- 0.07 Msun\"")
+            raise InputError(f"{label} = {value!r}: write a value with its 1σ uncertainty as \"{example}\"")
         return value, None
     unit = match["unit"].strip()
     try:
         number, error = float(match["value"]), float(match["error"])
     except ValueError:
-        raise InputError(f"{where}: [{section}] {key} = {value!r}: unparseable value or uncertainty") from None
+        raise InputError(f"{label} = {value!r}: unparseable value or uncertainty") from None
     if not error >= 0:
-        raise InputError(f"{where}: [{section}] {key} = {value!r}: the uncertainty must not be negative")
+        raise InputError(f"{label} = {value!r}: the uncertainty must not be negative")
     if not unit:
         return number, error
     return f"{match['value']} {unit}", f"{match['error']} {unit}"
+
+
+def parse_quantity(value, unit, label: str, example: str | None = None) -> u.Quantity:
+    """A value with a unit, written as a string (``"0.9 Msun"``), converted to ``unit``.
+
+    Refused, naming ``label``: a bare number, an unparseable string, a
+    non-finite value, a unit that does not convert.
+    """
+    example = example or f"1.0 {unit.to_string()}"
+    if isinstance(value, bool) or not isinstance(value, str):
+        shown = f"{value} {unit.to_string()}" if isinstance(value, (int, float)) else example
+        raise InputError(f"{label} = {value!r} needs a unit, written as a string, e.g. \"{shown}\"")
+    try:
+        q = u.Quantity(value)
+    except (TypeError, ValueError):
+        raise InputError(f"{label} = {value!r}: unparseable quantity; write a number and an astropy unit, "
+                         f"e.g. \"{example}\"") from None
+    if not np.all(np.isfinite(q.value)):
+        raise InputError(f"{label} = {value!r} is not a finite number")
+    try:
+        return q.to(unit)
+    except u.UnitConversionError:
+        raise InputError(f"{label} = {value!r}: unit {q.unit} cannot be converted to {unit.to_string()}, "
+                         f"e.g. \"{example}\"") from None
+
+
+def _split_uncertainty(value, where, section, key):
+    return split_uncertainty(value, f"{where}: [{section}] {key}")
 
 
 def _parse(value, unit, where, section, key):
@@ -357,21 +387,7 @@ def _parse(value, unit, where, section, key):
         if not np.isfinite(value):
             raise InputError(f"{where}: [{section}] {key} = {value!r} is not a finite number")
         return float(value)
-    if isinstance(value, (int, float)) and not isinstance(value, bool):
-        raise InputError(f"{where}: [{section}] {key} = {value!r} needs a unit, e.g. "
-                         f"\"{value} {unit.to_string()}\"")
-    try:
-        q = u.Quantity(str(value))
-    except (TypeError, ValueError):
-        raise InputError(f"{where}: [{section}] {key} = {value!r}: unparseable quantity; write "
-                         f"a number and an astropy unit, e.g. \"1.0 {unit.to_string()}\"") from None
-    if not np.all(np.isfinite(q.value)):
-        raise InputError(f"{where}: [{section}] {key} = {value!r} is not a finite number")
-    try:
-        return q.to(unit)
-    except u.UnitConversionError:
-        raise InputError(f"{where}: [{section}] {key} = {value!r}: unit {q.unit} cannot be "
-                         f"converted to {unit.to_string()}") from None
+    return parse_quantity(value, unit, f"{where}: [{section}] {key}")
 
 
 def _check_ranges(where, tables):

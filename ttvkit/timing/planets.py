@@ -58,6 +58,7 @@ import numpy as np
 from ttvkit.errors import EphemerisError, InputError, TimeStandardError, TtvkitWarning, located
 from ttvkit.io.readers import RawTable, read_raw_table
 from ttvkit.physics.nbody import orbits_overlap
+from ttvkit.physics.system import parse_quantity, split_uncertainty
 from ttvkit.timing.ephemeris import Ephemeris
 from ttvkit.timing.standards import parse_standard
 
@@ -389,38 +390,15 @@ def _date(value, where, key) -> float:
 
 
 def _quantity(value, unit, where, key, example) -> u.Quantity:
-    if isinstance(value, bool) or not isinstance(value, str):
-        raise InputError(f"{where}: {key} = {value!r} needs a unit, written as a string, e.g. \"{example}\"")
-    try:
-        q = u.Quantity(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{where}: {key} = {value!r}: unparseable; write a number and an astropy unit, "
-                         f"e.g. \"{example}\"") from None
-    if not np.all(np.isfinite(q.value)):
-        raise InputError(f"{where}: {key} = {value!r} is not a finite number")
-    try:
-        return q.to(unit)
-    except u.UnitConversionError:
-        raise InputError(f"{where}: {key} = {value!r}: unit {q.unit} cannot be converted to "
-                         f"{unit.to_string()}, e.g. \"{example}\"") from None
-
-
-_UNCERTAIN = re.compile(r"^\s*(?P<value>[-+0-9.eE]+)\s*(?:\+-|\+/-|±)\s*(?P<error>[-+0-9.eE]+)\s*(?P<unit>.*)$")
+    return parse_quantity(value, unit, f"{where}: {key}", example)
 
 
 def _uncertain(value, unit, where, key):
     """``"0.80 +- 0.03 Msun"`` → (value, 1σ) as Quantities; a value without ``+-`` → (value, None)."""
-    if isinstance(value, str):
-        m = _UNCERTAIN.match(value)
-        if m:
-            q = _quantity(f"{m['value']} {m['unit']}", unit, where, key, "0.80 +- 0.03 Msun")
-            e = _quantity(f"{m['error']} {m['unit']}", unit, where, key, "0.80 +- 0.03 Msun")
-            if not e.value >= 0:
-                raise InputError(f"{where}: {key} = {value!r}: the uncertainty must not be negative")
-            return q, e
-        if any(s in value for s in ("+-", "±", "+/-")):
-            raise InputError(f"{where}: {key} = {value!r}: write a value with its 1σ as \"0.80 +- 0.03 Msun\"")
-    return _quantity(value, unit, where, key, "0.80 +- 0.03 Msun"), None
+    example = "0.80 +- 0.03 Msun"
+    text, error = split_uncertainty(value, f"{where}: {key}", example)
+    return (_quantity(text, unit, where, key, example),
+            None if error is None else _quantity(error, unit, where, key, example))
 
 
 # ------------------------------------------------------------------------------------ the mid-times

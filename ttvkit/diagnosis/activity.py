@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ttvkit.constants import DAY_S, YEAR_D
+from ttvkit.constants import YEAR_D
 from ttvkit.errors import InputError, located
 
 __all__ = ["IndicatorResult", "link_indicators", "indicator_check", "LINKED_P", "UNLINKED_P"]
@@ -104,8 +104,3 @@ def indicator_check(result: IndicatorResult, fit):
             and covered < period_yr else "")
     return Check(f"activity indicator '{s.name}'", float(link.p_value), LINKED_P, "p", outcome, text,
                  decisive=True, probability=float(link.p_value))
-
-
-def oc_seconds(result: IndicatorResult) -> np.ndarray:
-    """The O−C the link was tested against, in seconds (for figures)."""
-    return result.oc * DAY_S

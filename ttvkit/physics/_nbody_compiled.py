@@ -195,16 +195,19 @@ def _apply(kinds, values, h, r, v, m, gm, icum, mu, wx, wa, wdx, wp, a, da):
             _kick(r, v, values[q] * h, 0.0, m, gm, icum, mu, wx, wa, wdx, wp, a, da)
 
 
+@njit(cache=True, error_model="numpy", inline="always")
+def _relative(r, v, m, icum, planet, wx, wv):
+    """Position and velocity of ``planet`` relative to the star (barycentric state left in wx, wv)."""
+    _from_jacobi(r, m, icum, wx)
+    _from_jacobi(v, m, icum, wv)
+    return (wx[planet + 1, 0] - wx[0, 0], wx[planet + 1, 1] - wx[0, 1], wx[planet + 1, 2] - wx[0, 2],
+            wv[planet + 1, 0] - wv[0, 0], wv[planet + 1, 1] - wv[0, 1], wv[planet + 1, 2] - wv[0, 2])
+
+
 @njit(cache=True, error_model="numpy")
 def _newton(r, v, m, icum, planet, mu_e, wx, wv):
     """g / (dg/dt) of ``planet`` with the two-body acceleration."""
-    _from_jacobi(r, m, icum, wx)
-    _from_jacobi(v, m, icum, wv)
-    px = wx[planet + 1, 0] - wx[0, 0]
-    py = wx[planet + 1, 1] - wx[0, 1]
-    pz = wx[planet + 1, 2] - wx[0, 2]
-    vx = wv[planet + 1, 0] - wv[0, 0]
-    vy = wv[planet + 1, 1] - wv[0, 1]
+    px, py, pz, vx, vy, _ = _relative(r, v, m, icum, planet, wx, wv)
     d = np.sqrt(px * px + py * py + pz * pz)
     k = -mu_e / (d * d * d)
     dg = vx * vx + vy * vy + px * k * px + py * k * py
@@ -223,14 +226,7 @@ def _local_root(r, v, m, icum, planet, mu_e, wx, wv):
     the orbit and the perturbing acceleration left out moves the planet by
     ~(a_pert/a_Kepler)(nδ)²/2 of it, both far below 1e-10 d in time.
     """
-    _from_jacobi(r, m, icum, wx)
-    _from_jacobi(v, m, icum, wv)
-    rx = wx[planet + 1, 0] - wx[0, 0]
-    ry = wx[planet + 1, 1] - wx[0, 1]
-    rz = wx[planet + 1, 2] - wx[0, 2]
-    vx = wv[planet + 1, 0] - wv[0, 0]
-    vy = wv[planet + 1, 1] - wv[0, 1]
-    vz = wv[planet + 1, 2] - wv[0, 2]
+    rx, ry, rz, vx, vy, vz = _relative(r, v, m, icum, planet, wx, wv)
     d2 = rx * rx + ry * ry + rz * rz
     k = -mu_e / (d2 * np.sqrt(d2))
     ax, ay = k * rx, k * ry
